@@ -1,0 +1,286 @@
+package gis
+
+import (
+	"bufio"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"github.com/paulmach/orb/geojson"
+)
+
+// MaxFeatures caps the number of features read from one layer, so that a
+// hostile or mistaken file cannot exhaust memory.
+const MaxFeatures = 10_000_000
+
+// rawFeature is one GeoJSON feature as decoded with json.Number for numbers.
+type rawFeature struct {
+	Type       string          `json:"type"`
+	ID         any             `json:"id"`
+	Geometry   json.RawMessage `json:"geometry"`
+	Properties map[string]any  `json:"properties"`
+}
+
+// readCollection reads a GeoJSON FeatureCollection (or a bare Feature) from
+// path. Numbers in ids and properties are kept as json.Number, so an id 1
+// reads back as "1" and 9007199254740993 stays exact. key is the config
+// section ("pipes", "sources", …) named in the error messages.
+func readCollection(path, key string) (*geojson.FeatureCollection, error) {
+	file := filepath.Base(path)
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, &FieldError{File: file, Err: fmt.Errorf("cannot read %s: %w; check the config key %s.path", path, err, key)}
+	}
+	defer f.Close()
+	fc, err := decodeCollection(bufio.NewReaderSize(f, 1<<20), file)
+	if err != nil {
+		var fe *FieldError
+		if errors.As(err, &fe) {
+			return nil, err
+		}
+		return nil, &FieldError{File: file, Err: fmt.Errorf("not a GeoJSON file (%w); check the config key %s.path", err, key)}
+	}
+	return fc, nil
+}
+
+// decodeCollection streams a GeoJSON object from r: a FeatureCollection,
+// whose features are decoded one by one, or a single Feature, returned as a
+// collection of one. Foreign top-level members (such as the old "crs") are
+// kept in ExtraMembers of a collection.
+func decodeCollection(r io.Reader, file string) (*geojson.FeatureCollection, error) {
+	dec := json.NewDecoder(r)
+	dec.UseNumber()
+	tok, err := dec.Token()
+	if err != nil {
+		return nil, err
+	}
+	if d, ok := tok.(json.Delim); !ok || d != '{' {
+		return nil, errors.New("the top level is not a JSON object")
+	}
+	fc := geojson.NewFeatureCollection()
+	members := map[string]json.RawMessage{}
+	var typ string
+	sawFeatures := false
+	for dec.More() {
+		tok, err := dec.Token()
+		if err != nil {
+			return nil, err
+		}
+		name, _ := tok.(string)
+		switch name {
+		case "type":
+			if err := dec.Decode(&typ); err != nil {
+				return nil, fmt.Errorf("member \"type\": %w", err)
+			}
+		case "features":
+			sawFeatures = true
+			if err := decodeFeatures(dec, fc, file); err != nil {
+				return nil, err
+			}
+		default:
+			var raw json.RawMessage
+			if err := dec.Decode(&raw); err != nil {
+				return nil, fmt.Errorf("member %q: %w", name, err)
+			}
+			members[name] = raw
+		}
+	}
+	if _, err := dec.Token(); err != nil {
+		return nil, err
+	}
+	switch typ {
+	case "FeatureCollection":
+		if !sawFeatures {
+			return nil, errors.New(`a FeatureCollection without "features"`)
+		}
+		for _, k := range sortedKeys(members) {
+			if k == "bbox" {
+				continue
+			}
+			var v any
+			if err := unmarshalNumber(members[k], &v); err == nil {
+				if fc.ExtraMembers == nil {
+					fc.ExtraMembers = geojson.Properties{}
+				}
+				fc.ExtraMembers[k] = v
+			}
+		}
+		return fc, nil
+	case "Feature":
+		raw := rawFeature{Type: typ, Geometry: members["geometry"]}
+		if id, ok := members["id"]; ok {
+			if err := unmarshalNumber(id, &raw.ID); err != nil {
+				return nil, fmt.Errorf("member \"id\": %w", err)
+			}
+		}
+		if p, ok := members["properties"]; ok {
+			if err := unmarshalNumber(p, &raw.Properties); err != nil {
+				return nil, fmt.Errorf("member \"properties\": %w", err)
+			}
+		}
+		f, err := raw.feature(file, 1)
+		if err != nil {
+			return nil, err
+		}
+		fc.Append(f)
+		return fc, nil
+	case "":
+		return nil, errors.New(`no "type" member`)
+	default:
+		return nil, fmt.Errorf("type %q is not FeatureCollection or Feature", typ)
+	}
+}
+
+// decodeFeatures reads the array value of "features" feature by feature.
+func decodeFeatures(dec *json.Decoder, fc *geojson.FeatureCollection, file string) error {
+	tok, err := dec.Token()
+	if err != nil {
+		return err
+	}
+	if d, ok := tok.(json.Delim); !ok || d != '[' {
+		return errors.New(`"features" is not an array`)
+	}
+	for dec.More() {
+		index := len(fc.Features) + 1
+		if index > MaxFeatures {
+			return &FieldError{File: file, Err: fmt.Errorf("more than %d features; split the layer", MaxFeatures)}
+		}
+		var raw rawFeature
+		if err := dec.Decode(&raw); err != nil {
+			return &FieldError{File: file, Feature: index, Err: fmt.Errorf("not a GeoJSON feature: %w", err)}
+		}
+		f, err := raw.feature(file, index)
+		if err != nil {
+			return err
+		}
+		fc.Append(f)
+	}
+	_, err = dec.Token()
+	return err
+}
+
+// feature turns a decoded raw feature into an orb feature. Properties are
+// never nil afterwards.
+func (raw rawFeature) feature(file string, index int) (*geojson.Feature, error) {
+	if raw.Type != "Feature" {
+		return nil, &FieldError{File: file, Feature: index, ID: idString(raw.ID),
+			Err: fmt.Errorf("type %q is not Feature", raw.Type)}
+	}
+	f := &geojson.Feature{Type: "Feature", ID: raw.ID, Properties: raw.Properties}
+	if f.Properties == nil {
+		f.Properties = geojson.Properties{}
+	}
+	g := strings.TrimSpace(string(raw.Geometry))
+	if g != "" && g != "null" {
+		geom, err := geojson.UnmarshalGeometry(raw.Geometry)
+		if err != nil {
+			return nil, &FieldError{File: file, Feature: index, ID: idString(raw.ID), Field: "geometry",
+				Err: fmt.Errorf("not a GeoJSON geometry: %w", err)}
+		}
+		f.Geometry = geom.Geometry()
+	}
+	return f, nil
+}
+
+func unmarshalNumber(data []byte, v any) error {
+	dec := json.NewDecoder(strings.NewReader(string(data)))
+	dec.UseNumber()
+	return dec.Decode(v)
+}
+
+// idString renders an id or a text value: strings as they are, numbers
+// exactly as written (json.Number) or in shortest form (float64), "" for nil.
+func idString(v any) string {
+	switch x := v.(type) {
+	case nil:
+		return ""
+	case string:
+		return strings.TrimSpace(x)
+	case json.Number:
+		return x.String()
+	case float64:
+		return strconv.FormatFloat(x, 'f', -1, 64)
+	case float32:
+		return strconv.FormatFloat(float64(x), 'f', -1, 32)
+	case int:
+		return strconv.Itoa(x)
+	case int64:
+		return strconv.FormatInt(x, 10)
+	case int32:
+		return strconv.FormatInt(int64(x), 10)
+	case uint64:
+		return strconv.FormatUint(x, 10)
+	case bool:
+		return strconv.FormatBool(x)
+	default:
+		return fmt.Sprint(x)
+	}
+}
+
+// errMissing marks a value that is absent, null or blank.
+var errMissing = errors.New("missing")
+
+// number reads a numeric property: a JSON number, or a string holding one
+// ("8", " 8.5 "). It returns errMissing for nil and blank strings, and an
+// error saying why otherwise ("eight" is not a number; NaN and ±Inf are refused).
+func number(v any) (float64, error) {
+	var x float64
+	switch t := v.(type) {
+	case nil:
+		return 0, errMissing
+	case json.Number:
+		f, err := strconv.ParseFloat(t.String(), 64)
+		if err != nil {
+			return 0, fmt.Errorf("%s is not a number", t)
+		}
+		x = f
+	case float64:
+		x = t
+	case float32:
+		x = float64(t)
+	case int:
+		x = float64(t)
+	case int64:
+		x = float64(t)
+	case int32:
+		x = float64(t)
+	case string:
+		s := strings.TrimSpace(t)
+		if s == "" {
+			return 0, errMissing
+		}
+		f, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			return 0, fmt.Errorf("%q is not a number", t)
+		}
+		x = f
+	default:
+		return 0, fmt.Errorf("%s is not a number", shortJSON(v))
+	}
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return 0, fmt.Errorf("%v is not a finite number", x)
+	}
+	return x, nil
+}
+
+// shortJSON renders any value briefly for a message.
+func shortJSON(v any) string {
+	b, err := json.Marshal(v)
+	if err != nil {
+		return fmt.Sprintf("%v", v)
+	}
+	s := string(b)
+	if len(s) > 40 {
+		s = s[:37] + "..."
+	}
+	return s
+}
+
+// fmtNum formats a number for a message in shortest form.
+func fmtNum(x float64) string { return strconv.FormatFloat(x, 'f', -1, 64) }

@@ -1,0 +1,396 @@
+package gis
+
+import (
+	"fmt"
+	"math"
+	"path/filepath"
+	"strings"
+
+	"github.com/paulmach/orb"
+	"github.com/paulmach/orb/geojson"
+
+	"headroom/hydraulics"
+)
+
+// Pipe is one input pipe feature, in file order.
+type Pipe struct {
+	Index int    // 1-based position in the file
+	File  string // base name of the layer file (for Problems raised later)
+	ID    string
+	// Geometry is the geometry as read, for output (nil if the feature had none).
+	Geometry orb.Geometry
+	// Line is the centreline used (lon/lat); nil if unusable. A
+	// MultiLineString becomes one line when each part starts where the one
+	// before ends, within PartGap; a part drawn the other way round is
+	// reversed to fit. Parts that do not join make the pipe unusable: its
+	// length and end nodes would be guesses.
+	Line        orb.LineString
+	Diameter    hydraulics.Length // as recorded (nominal = inside for existing mains, the modelling convention)
+	Material    string
+	InstallYear int     // 0 = unknown
+	MeasuredC   float64 // 0 = none
+	Closed      bool
+	Zone        string
+	Length      hydraulics.Length // geodesic on WGS84, or the mapped length field
+	Usable      bool              // false: left out of the network; Reason says why
+	Reason      string
+}
+
+// PartGap is the largest gap between the end of one part of a
+// MultiLineString and the start of the next for the parts to be joined into
+// one centreline: 0.5 ft, the usual snap tolerance.
+const PartGap = 0.5 * hydraulics.Foot
+
+// Plausible install years: from FirstInstallYear to the analysis year.
+const FirstInstallYear = 1800
+
+// Plausible measured Hazen-Williams C: above 0 and at most MaxMeasuredC
+// (new PVC and lined pipe test at 140–150; DOMAIN.md §2.1).
+const MaxMeasuredC = 200
+
+// openStatus are status values that mean in service. Anything that is
+// neither one of these nor a closed value is reported and treated as open.
+var openStatus = []string{"open", "opened", "active", "in service", "in_service", "inservice", "normal", "normally open"}
+
+// ReadPipes reads a GeoJSON pipe layer; see [PipesFromCollection].
+func ReadPipes(path string, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
+	fc, err := readCollection(path, "pipes")
+	if err != nil {
+		return nil, nil, err
+	}
+	return PipesFromCollection(filepath.Base(path), fc, s, analysisYear)
+}
+
+// PipesFromCollection turns the features of a pipe layer into Pipes, in file
+// order, one per feature. Findings that leave the pipe usable or out of the
+// network are Problems; the error is fatal (no features, a required field
+// not mapped or in no feature, a bad unit, no usable pipe). With a fatal
+// error about the data the pipes and problems found so far are returned too.
+// analysisYear bounds install years: later years are treated as unknown.
+func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
+	dUnit, err := diameterUnit(s.DiameterUnit, "pipes.fields.diameter_unit")
+	if err != nil {
+		return nil, nil, &FieldError{File: file, Err: err}
+	}
+	lUnit, err := lengthUnit(s.LengthUnit, "pipes.fields.length_unit")
+	if err != nil {
+		return nil, nil, &FieldError{File: file, Err: err}
+	}
+	if fc == nil || len(fc.Features) == 0 {
+		return nil, nil, &FieldError{File: file, Err: fmt.Errorf("no features; check the config key pipes.path")}
+	}
+	if err := checkCRS(file, fc); err != nil {
+		return nil, nil, err
+	}
+	probs, err := checkFields(file, fc, []fieldSpec{
+		{key: "pipes.fields.id", prop: s.ID, required: true, isID: true},
+		{key: "pipes.fields.diameter", prop: s.Diameter, required: true},
+		{key: "pipes.fields.material", prop: s.Material, required: true},
+		{key: "pipes.fields.install_year", prop: s.InstallYear, required: true},
+		{key: "pipes.fields.measured_c", prop: s.MeasuredC},
+		{key: "pipes.fields.status", prop: s.Status},
+		{key: "pipes.fields.zone", prop: s.Zone},
+		{key: "pipes.fields.length", prop: s.Length},
+	})
+	if err != nil {
+		return nil, nil, err
+	}
+	closed := s.ClosedValues
+	if closed == nil {
+		closed = []string{"closed"}
+	}
+	r := &pipeReader{file: file, s: s, dUnit: dUnit, lUnit: lUnit, year: analysisYear,
+		closed: closed, probs: probs, seen: map[string]int{}}
+	pipes := make([]Pipe, len(fc.Features))
+	usable := 0
+	for i, f := range fc.Features {
+		pipes[i] = r.pipe(i+1, f)
+		if pipes[i].Usable {
+			usable++
+		}
+	}
+	if usable == 0 {
+		return pipes, r.probs, &FieldError{File: file,
+			Err: fmt.Errorf("%w: none of %d pipes can be modelled; see the problems list", ErrNoUsable, len(pipes))}
+	}
+	return pipes, r.probs, nil
+}
+
+type pipeReader struct {
+	file   string
+	s      PipeSchema
+	dUnit  hydraulics.Length
+	lUnit  hydraulics.Length
+	year   int
+	closed []string
+	probs  []Problem
+	seen   map[string]int // id → first feature index
+}
+
+func (r *pipeReader) add(p *Pipe, field, what, action string) {
+	r.probs = append(r.probs, Problem{File: r.file, Feature: p.Index, ID: p.ID, Field: field, What: what, Action: action})
+}
+
+// drop marks p unusable and records the Problem.
+func (r *pipeReader) drop(p *Pipe, field, what, fix string) {
+	if p.Usable {
+		p.Usable = false
+		p.Reason = what
+	}
+	r.add(p, field, what, "pipe left out of the network; "+fix)
+}
+
+func (r *pipeReader) pipe(index int, f *geojson.Feature) Pipe {
+	p := Pipe{Index: index, File: r.file, Geometry: f.Geometry, Usable: true}
+	r.id(&p, f)
+	r.geometry(&p)
+	r.diameter(&p, f)
+	r.material(&p, f)
+	r.installYear(&p, f)
+	r.measuredC(&p, f)
+	r.status(&p, f)
+	if v, _, ok := lookup(f.Properties, r.s.Zone); ok {
+		p.Zone = idString(v)
+	}
+	r.length(&p, f)
+	if !p.Usable {
+		p.Line = nil
+	}
+	return p
+}
+
+func (r *pipeReader) id(p *Pipe, f *geojson.Feature) {
+	v, name, ok := lookup(f.Properties, r.s.ID)
+	if !ok {
+		v, name = f.ID, "id"
+	}
+	p.ID = idString(v)
+	if p.ID == "" {
+		r.add(p, r.s.ID, "id is missing",
+			fmt.Sprintf("pipe kept and named #%d after its position; give every pipe a unique id", p.Index))
+		return
+	}
+	if first, dup := r.seen[p.ID]; dup {
+		r.add(p, name, fmt.Sprintf("id %q is also used by feature %d", p.ID, first),
+			"pipe kept; ids must be unique for the ranking to be traceable")
+		return
+	}
+	r.seen[p.ID] = p.Index
+}
+
+func (r *pipeReader) geometry(p *Pipe) {
+	const fix = "supply a LineString in lon/lat (WGS84)"
+	switch g := p.Geometry.(type) {
+	case nil:
+		r.drop(p, "geometry", "geometry is missing", fix)
+		return
+	case orb.LineString:
+		p.Line = g
+	case orb.MultiLineString:
+		line, what := joinParts(g)
+		if what != "" {
+			r.drop(p, "geometry", what, "split it into one feature per part or join the parts end to start")
+			return
+		}
+		p.Line = line
+	default:
+		r.drop(p, "geometry", fmt.Sprintf("geometry is %s, want LineString or MultiLineString", p.Geometry.GeoJSONType()), fix)
+		return
+	}
+	if what := checkLonLat(p.Line); what != "" {
+		r.drop(p, "geometry", what, "write the layer in lon/lat (WGS84, EPSG:4326) as GeoJSON requires")
+		return
+	}
+	if distinctVertices(p.Line) < 2 {
+		r.drop(p, "geometry", fmt.Sprintf("line has %d distinct vertices, want at least 2", distinctVertices(p.Line)), fix)
+	}
+}
+
+// joinParts joins the parts of m into one line when each part starts within
+// PartGap of where the previous one ends (a part that fits only reversed is
+// reversed). It returns a description of the first gap otherwise.
+func joinParts(m orb.MultiLineString) (orb.LineString, string) {
+	var parts []orb.LineString
+	for _, part := range m {
+		if len(part) > 0 {
+			parts = append(parts, part)
+		}
+	}
+	if len(parts) == 0 {
+		return nil, "geometry is an empty MultiLineString"
+	}
+	line := append(orb.LineString(nil), parts[0]...)
+	for i, part := range parts[1:] {
+		end := line[len(line)-1]
+		dStart := segmentMetres(end, part[0])
+		dEnd := segmentMetres(end, part[len(part)-1])
+		switch {
+		case dStart <= PartGap.Metres():
+			line = append(line, part[1:]...)
+		case dEnd <= PartGap.Metres():
+			for j := len(part) - 2; j >= 0; j-- {
+				line = append(line, part[j])
+			}
+		default:
+			return nil, fmt.Sprintf("multi-part line: part %d does not start where part %d ends (gap %s)",
+				i+2, i+1, formatDistance(hydraulics.Length(math.Min(dStart, dEnd))))
+		}
+	}
+	return line, ""
+}
+
+// checkLonLat reports coordinates that cannot be lon/lat degrees.
+func checkLonLat(ls orb.LineString) string {
+	for i, q := range ls {
+		if !validLonLat(q) {
+			return fmt.Sprintf("vertex %d (%s, %s) is not a lon/lat position", i+1, fmtNum(q[0]), fmtNum(q[1]))
+		}
+	}
+	return ""
+}
+
+func validLonLat(q orb.Point) bool {
+	return !math.IsNaN(q[0]) && !math.IsNaN(q[1]) && math.Abs(q[0]) <= 180 && math.Abs(q[1]) <= 90
+}
+
+func distinctVertices(ls orb.LineString) int {
+	n := 0
+	for i, q := range ls {
+		if i == 0 || q != ls[i-1] {
+			n++
+		}
+	}
+	if n > 1 {
+		// Repeated non-adjacent vertices (A B A) still give a length; count
+		// only whether two distinct positions exist.
+		for _, q := range ls[1:] {
+			if q != ls[0] {
+				return n
+			}
+		}
+		return 1
+	}
+	return n
+}
+
+func (r *pipeReader) diameter(p *Pipe, f *geojson.Feature) {
+	v, name, _ := lookup(f.Properties, r.s.Diameter)
+	if name == "" {
+		name = r.s.Diameter
+	}
+	const fix = "correct the diameter or set status closed"
+	x, err := number(v)
+	switch {
+	case err == errMissing:
+		r.drop(p, name, "diameter is missing", fix)
+	case err != nil:
+		r.drop(p, name, "diameter "+err.Error(), fix)
+	case x <= 0:
+		r.drop(p, name, fmt.Sprintf("diameter %s is not > 0", fmtNum(x)), fix)
+	default:
+		p.Diameter = hydraulics.Length(x) * r.dUnit
+	}
+}
+
+func (r *pipeReader) material(p *Pipe, f *geojson.Feature) {
+	v, name, _ := lookup(f.Properties, r.s.Material)
+	p.Material = idString(v)
+	if p.Material == "" {
+		if name == "" {
+			name = r.s.Material
+		}
+		r.add(p, name, "material is missing",
+			"pipe kept with material unknown, so its C-factor comes from the default for unknown material; fill in the material")
+	}
+}
+
+func (r *pipeReader) installYear(p *Pipe, f *geojson.Feature) {
+	v, name, _ := lookup(f.Properties, r.s.InstallYear)
+	if name == "" {
+		name = r.s.InstallYear
+	}
+	const fix = "pipe kept with age unknown; correct the install year"
+	x, err := number(v)
+	switch {
+	case err == errMissing:
+		r.add(p, name, "install year is missing", fix)
+	case err != nil:
+		r.add(p, name, "install year "+err.Error(), fix)
+	case x != math.Trunc(x):
+		r.add(p, name, fmt.Sprintf("install year %s is not a whole year", fmtNum(x)), fix)
+	case x > float64(r.year):
+		r.add(p, name, fmt.Sprintf("install year %s is after the analysis year %d", fmtNum(x), r.year), fix)
+	case x < FirstInstallYear:
+		r.add(p, name, fmt.Sprintf("install year %s is before %d", fmtNum(x), FirstInstallYear), fix)
+	default:
+		p.InstallYear = int(x)
+	}
+}
+
+func (r *pipeReader) measuredC(p *Pipe, f *geojson.Feature) {
+	v, name, ok := lookup(f.Properties, r.s.MeasuredC)
+	if !ok {
+		return
+	}
+	const fix = "measured C ignored, C from material and age; correct the value or leave it empty"
+	x, err := number(v)
+	switch {
+	case err == errMissing || (err == nil && x == 0):
+	case err != nil:
+		r.add(p, name, "measured C "+err.Error(), fix)
+	case x < 0 || x > MaxMeasuredC:
+		r.add(p, name, fmt.Sprintf("measured C %s is not in 0–%d", fmtNum(x), MaxMeasuredC), fix)
+	default:
+		p.MeasuredC = x
+	}
+}
+
+func (r *pipeReader) status(p *Pipe, f *geojson.Feature) {
+	v, name, ok := lookup(f.Properties, r.s.Status)
+	if !ok {
+		return
+	}
+	st := idString(v)
+	for _, c := range r.closed {
+		if strings.EqualFold(st, strings.TrimSpace(c)) {
+			p.Closed = true
+			return
+		}
+	}
+	if st == "" {
+		return
+	}
+	for _, o := range openStatus {
+		if strings.EqualFold(st, o) {
+			return
+		}
+	}
+	r.add(p, name, fmt.Sprintf("status %q is not a known value", st),
+		"pipe treated as open; if the value means closed, add it to the config key pipes.fields.closed_values")
+}
+
+func (r *pipeReader) length(p *Pipe, f *geojson.Feature) {
+	if p.Line != nil {
+		p.Length = GeodesicLength(p.Line)
+	}
+	v, name, ok := lookup(f.Properties, r.s.Length)
+	if !ok {
+		return
+	}
+	const fix = "length taken from the geometry; correct the value or leave it empty"
+	x, err := number(v)
+	switch {
+	case err == errMissing:
+	case err != nil:
+		r.add(p, name, "length "+err.Error(), fix)
+	case x <= 0:
+		r.add(p, name, fmt.Sprintf("length %s is not > 0", fmtNum(x)), fix)
+	default:
+		p.Length = hydraulics.Length(x) * r.lUnit
+	}
+}
+
+// formatDistance writes a distance for a message in both metres and feet.
+func formatDistance(d hydraulics.Length) string {
+	return fmt.Sprintf("%.2f m, %.1f ft", d.Metres(), d.Feet())
+}

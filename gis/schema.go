@@ -1,0 +1,191 @@
+package gis
+
+import (
+	"cmp"
+	"errors"
+	"fmt"
+	"slices"
+	"strings"
+
+	"github.com/paulmach/orb/geojson"
+
+	"headroom/hydraulics"
+)
+
+// PipeSchema maps pipe properties to their meaning. Property names are
+// matched exactly, or else case-insensitively when exactly one property
+// matches that way. "" means not mapped, allowed only for optional fields.
+type PipeSchema struct {
+	ID, Diameter, Material, InstallYear string   // required
+	DiameterUnit                        string   // "in" (default when "") or "mm"
+	MeasuredC                           string   // optional: a positive number overrides aging; null, "", 0 = none
+	Status                              string   // optional
+	ClosedValues                        []string // status values meaning closed, case-insensitive; nil = {"closed"}
+	Zone                                string   // optional
+	Length                              string   // optional: a positive value overrides the geodesic length
+	LengthUnit                          string   // "ft" (default) or "m"
+}
+
+// SourceSchema maps source properties. Grade, the hydraulic grade held
+// (water-surface elevation or set head), is required; GradeUnit is "ft"
+// (default) or "m". ID and Name are optional.
+type SourceSchema struct {
+	ID, Name, Grade string
+	GradeUnit       string
+}
+
+// DemandSchema maps demand properties. Demand (average day) is required;
+// DemandUnit is "gpm" (default), "lps", "mgd" or "cfs". ID is optional.
+type DemandSchema struct {
+	ID, Demand string
+	DemandUnit string
+}
+
+// ElevationSchema maps elevation points. Elevation is required;
+// ElevationUnit is "ft" (default) or "m".
+type ElevationSchema struct {
+	Elevation     string
+	ElevationUnit string
+}
+
+// fieldSpec is one mapped field of a schema: its config key (for messages),
+// the property name and whether it is required.
+type fieldSpec struct {
+	key      string // config key, e.g. "pipes.fields.diameter"
+	prop     string // property name in the layer, "" if not mapped
+	required bool
+	isID     bool // the feature's own "id" member stands in when the property is absent
+}
+
+// checkFields returns a fatal error for a required field that is not mapped
+// or present in no feature, and a Problem for an optional one present in no
+// feature.
+func checkFields(file string, fc *geojson.FeatureCollection, specs []fieldSpec) ([]Problem, error) {
+	var probs []Problem
+	for _, s := range specs {
+		if s.prop == "" {
+			if s.required {
+				return nil, &FieldError{File: file, Err: fmt.Errorf("required field is not mapped; set the config key %s", s.key)}
+			}
+			continue
+		}
+		found := false
+		for _, f := range fc.Features {
+			if _, _, ok := lookup(f.Properties, s.prop); ok || (s.isID && f.ID != nil) {
+				found = true
+				break
+			}
+		}
+		if found {
+			continue
+		}
+		if s.required {
+			return nil, &FieldError{File: file, Field: s.prop,
+				Err: fmt.Errorf("is in no feature; check the config key %s", s.key)}
+		}
+		probs = append(probs, Problem{File: file, Field: s.prop,
+			What:   "mapped field is in no feature",
+			Action: "field ignored; check the config key " + s.key})
+	}
+	return probs, nil
+}
+
+// lookup finds property name in p: exactly, or else the one property whose
+// name matches case-insensitively. It returns the value and the name found.
+func lookup(p geojson.Properties, name string) (any, string, bool) {
+	if name == "" {
+		return nil, "", false
+	}
+	if v, ok := p[name]; ok {
+		return v, name, true
+	}
+	match := ""
+	n := 0
+	for k := range p {
+		if strings.EqualFold(k, name) {
+			match = k
+			n++
+		}
+	}
+	if n == 1 {
+		return p[match], match, true
+	}
+	return nil, "", false
+}
+
+// lengthUnit returns the length of one unit named u ("ft" default, "m").
+func lengthUnit(u, key string) (hydraulics.Length, error) {
+	switch strings.ToLower(strings.TrimSpace(u)) {
+	case "", "ft", "feet", "foot":
+		return hydraulics.Foot, nil
+	case "m", "metre", "metres", "meter", "meters":
+		return hydraulics.Metre, nil
+	}
+	return 0, fmt.Errorf("unit %q is not \"ft\" or \"m\"; check the config key %s", u, key)
+}
+
+// diameterUnit returns the length of one unit named u ("in" default, "mm").
+func diameterUnit(u, key string) (hydraulics.Length, error) {
+	switch strings.ToLower(strings.TrimSpace(u)) {
+	case "", "in", "inch", "inches":
+		return hydraulics.Inch, nil
+	case "mm":
+		return hydraulics.Millimetre, nil
+	}
+	return 0, fmt.Errorf("unit %q is not \"in\" or \"mm\"; check the config key %s", u, key)
+}
+
+// flowUnit returns the flow of one unit named u ("gpm" default, "lps", "mgd", "cfs").
+func flowUnit(u, key string) (hydraulics.Flow, error) {
+	switch strings.ToLower(strings.TrimSpace(u)) {
+	case "", "gpm":
+		return hydraulics.USGallonPerMinute, nil
+	case "lps", "l/s":
+		return hydraulics.LitrePerSecond, nil
+	case "mgd":
+		return hydraulics.MillionGallonsPerDay, nil
+	case "cfs":
+		return hydraulics.CubicFootPerSecond, nil
+	}
+	return 0, fmt.Errorf("unit %q is not \"gpm\", \"lps\", \"mgd\" or \"cfs\"; check the config key %s", u, key)
+}
+
+// ErrNoUsable is wrapped by the error returned when a layer has features but
+// none of them can be used.
+var ErrNoUsable = errors.New("no usable feature")
+
+// checkCRS refuses a layer whose old-style "crs" member names a coordinate
+// system other than geographic lon/lat on WGS84 (or NAD83, the same to about
+// 1–2 m): RFC 7946 GeoJSON is always WGS84 lon/lat, and projected
+// coordinates would be read as degrees.
+func checkCRS(file string, fc *geojson.FeatureCollection) error {
+	crs, ok := fc.ExtraMembers["crs"]
+	if !ok || crs == nil {
+		return nil
+	}
+	name := ""
+	if m, ok := crs.(map[string]any); ok {
+		if p, ok := m["properties"].(map[string]any); ok {
+			name, _ = p["name"].(string)
+		}
+	}
+	up := strings.ToUpper(name)
+	for _, ok := range []string{"CRS84", "CRS83", "EPSG:4326", "EPSG::4326", "EPSG:4269", "EPSG::4269"} {
+		if strings.HasSuffix(up, ok) {
+			return nil
+		}
+	}
+	if name == "" {
+		name = shortJSON(crs)
+	}
+	return &FieldError{File: file, Field: "crs", Err: fmt.Errorf("coordinate system %s is not lon/lat WGS84; export the layer as GeoJSON in EPSG:4326", name)}
+}
+
+func sortedKeys[V any](m map[string]V) []string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	slices.SortFunc(keys, cmp.Compare)
+	return keys
+}

@@ -1,0 +1,176 @@
+package gis
+
+import (
+	"math"
+	"reflect"
+	"strconv"
+	"strings"
+	"testing"
+
+	"github.com/paulmach/orb"
+
+	"headroom/hydraulics"
+)
+
+// local turns planar metres east and north of (-97.5, 35) into lon/lat with
+// the WGS84 radii there, so test geometry can be drawn in metres.
+var testProj = newProjection(-97.5, 35)
+
+func local(x, y float64) orb.Point {
+	return orb.Point{testProj.lon0 + x/testProj.kx, testProj.lat0 + y/testProj.ky}
+}
+
+func testPipe(id string, xy ...float64) Pipe {
+	var ls orb.LineString
+	for i := 0; i+1 < len(xy); i += 2 {
+		ls = append(ls, local(xy[i], xy[i+1]))
+	}
+	return Pipe{ID: id, File: "pipes.geojson", Geometry: ls, Line: ls, Usable: true, Diameter: 8 * hydraulics.Inch,
+		Length: GeodesicLength(ls)}
+}
+
+func indexPipes(pipes []Pipe) []Pipe {
+	for i := range pipes {
+		pipes[i].Index = i + 1
+	}
+	return pipes
+}
+
+const halfFoot = 0.5 * hydraulics.Foot // 0.1524 m
+
+func TestSnap(t *testing.T) {
+	cases := []struct {
+		name     string
+		pipes    []Pipe
+		nodes    int
+		ends     [][2]int
+		problems []string // substrings, one per expected Problem, in order
+	}{
+		{"end within tolerance joins", []Pipe{
+			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.10, 0, 200, 0)},
+			3, [][2]int{{0, 1}, {1, 2}}, nil},
+		{"end beyond tolerance does not join", []Pipe{
+			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.20, 0, 200, 0)},
+			4, [][2]int{{0, 1}, {2, 3}}, []string{"possible unsnapped end: node J2"}},
+		{"far apart, nothing reported", []Pipe{
+			testPipe("A", 0, 0, 100, 0), testPipe("B", 102, 0, 200, 0)},
+			4, [][2]int{{0, 1}, {2, 3}}, nil},
+		{"T without a vertex does not snap", []Pipe{
+			testPipe("MAIN", 0, 0, 200, 0), testPipe("BRANCH", 100, 0, 100, 100)},
+			4, [][2]int{{0, 1}, {2, 3}}, []string{`from the middle of pipe "MAIN"`}},
+		{"T with split main snaps", []Pipe{
+			testPipe("M1", 0, 0, 100, 0), testPipe("M2", 100, 0, 200, 0), testPipe("BRANCH", 100, 0, 100, 100)},
+			4, [][2]int{{0, 1}, {1, 2}, {1, 3}}, nil},
+		{"self-loop made unusable, no orphan node", []Pipe{
+			testPipe("LOOP", 0, 0, 50, 0, 50, 50, 0, 0.05), testPipe("A", 300, 0, 400, 0)},
+			2, [][2]int{{-1, -1}, {0, 1}}, []string{"both ends join one node"}},
+		{"stub shorter than tolerance made unusable", []Pipe{
+			testPipe("A", 0, 0, 100, 0), testPipe("STUB", 100, 0, 100.1, 0)},
+			2, [][2]int{{0, 1}, {-1, -1}}, []string{"shorter than the snap tolerance"}},
+		{"nearest of two candidates within tolerance", []Pipe{ // C starts 0.12 m from J2, 0.08 m from J3
+			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.2, 0, 200, 0), testPipe("C", 100.12, 0, 100.12, 80)},
+			5, [][2]int{{0, 1}, {2, 3}, {2, 4}}, []string{"possible unsnapped end: node J2"}},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			pipes := indexPipes(tc.pipes)
+			topo, probs := Snap(pipes, halfFoot)
+			if len(topo.Nodes) != tc.nodes {
+				t.Errorf("got %d nodes, want %d", len(topo.Nodes), tc.nodes)
+			}
+			if !reflect.DeepEqual(topo.Ends, tc.ends) {
+				t.Errorf("ends %v, want %v", topo.Ends, tc.ends)
+			}
+			if len(probs) != len(tc.problems) {
+				t.Fatalf("got %d problems, want %d: %+v", len(probs), len(tc.problems), probs)
+			}
+			for i, w := range tc.problems {
+				if !strings.Contains(probs[i].What, w) || probs[i].File != "pipes.geojson" || probs[i].Feature == 0 {
+					t.Errorf("problem %d = %+v, want What containing %q", i, probs[i], w)
+				}
+			}
+			for i, p := range pipes {
+				if (tc.ends[i][0] < 0) == p.Usable {
+					t.Errorf("pipe %s usable %v with ends %v", p.ID, p.Usable, tc.ends[i])
+				}
+			}
+			for k, n := range topo.Nodes {
+				if n.ID != "J"+strconv.Itoa(k+1) {
+					t.Errorf("node %d id %q", k, n.ID)
+				}
+			}
+		})
+	}
+}
+
+// Node IDs follow pipe order, start then end, and repeat exactly.
+func TestSnapDeterministic(t *testing.T) {
+	mk := func() []Pipe {
+		return indexPipes([]Pipe{
+			testPipe("C", 200, 0, 200, 100), testPipe("A", 0, 0, 100, 0), testPipe("B", 100, 0, 200, 0),
+		})
+	}
+	t1, _ := Snap(mk(), halfFoot)
+	t2, _ := Snap(mk(), halfFoot)
+	if !reflect.DeepEqual(t1.Nodes, t2.Nodes) || !reflect.DeepEqual(t1.Ends, t2.Ends) {
+		t.Error("two runs differ")
+	}
+	// C makes J1 (200,0) and J2 (200,100); A makes J3 (0,0), J4 (100,0); B joins J4 and J1.
+	want := [][2]int{{0, 1}, {2, 3}, {3, 0}}
+	if !reflect.DeepEqual(t1.Ends, want) {
+		t.Errorf("ends %v, want %v", t1.Ends, want)
+	}
+	// Planar X, Y are metres about the mean end position (independent check:
+	// J1 and J3 lie 200 m apart east–west).
+	if d := t1.Nodes[0].X - t1.Nodes[2].X; math.Abs(d-200) > 0.01 {
+		t.Errorf("X(J1) − X(J3) = %.4f m, want 200", d)
+	}
+}
+
+func TestSnapSkipsUnusable(t *testing.T) {
+	pipes := indexPipes([]Pipe{testPipe("A", 0, 0, 100, 0), {ID: "BAD", Usable: false}, testPipe("B", 100, 0, 200, 0)})
+	topo, _ := Snap(pipes, halfFoot)
+	if !reflect.DeepEqual(topo.Ends, [][2]int{{0, 1}, {-1, -1}, {1, 2}}) {
+		t.Errorf("ends %v", topo.Ends)
+	}
+}
+
+// gridPipes lays out an n×n street grid of blocks of 100 m, each block edge
+// one pipe of two segments, about (-97.5, 35).
+func gridPipes(n int) []Pipe {
+	var pipes []Pipe
+	for i := 0; i <= n; i++ {
+		for j := 0; j < n; j++ {
+			x, y := float64(i)*100, float64(j)*100
+			pipes = append(pipes, testPipe("", x, y, x+3, y+50, x, y+100)) // north–south
+			pipes = append(pipes, testPipe("", y, x, y+50, x+3, y+100, x)) // east–west
+		}
+	}
+	for i := range pipes {
+		pipes[i].Index = i + 1
+		pipes[i].ID = "P" + strconv.Itoa(i+1)
+	}
+	return pipes
+}
+
+// The grid check is a count: (n+1)² junctions for 2n(n+1) pipes (Euler's
+// formula for a grid graph).
+func TestSnapGrid(t *testing.T) {
+	pipes := gridPipes(20)
+	topo, probs := Snap(pipes, halfFoot)
+	if len(topo.Nodes) != 21*21 || len(pipes) != 2*20*21 || len(probs) != 0 {
+		t.Errorf("%d nodes for %d pipes, %d problems", len(topo.Nodes), len(pipes), len(probs))
+	}
+}
+
+func BenchmarkSnap100k(b *testing.B) {
+	pipes := gridPipes(223) // 2·223·224 = 99,904 pipes
+	work := make([]Pipe, len(pipes))
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		copy(work, pipes)
+		Snap(work, halfFoot)
+	}
+	b.ReportMetric(float64(len(pipes))*float64(b.N)/b.Elapsed().Seconds(), "pipes/s")
+}

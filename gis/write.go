@@ -1,0 +1,423 @@
+package gis
+
+import (
+	"bufio"
+	"encoding/csv"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+
+	"github.com/paulmach/orb"
+	"github.com/paulmach/orb/geojson"
+)
+
+// Kind is the type of a Column.
+type Kind int
+
+// Column kinds.
+const (
+	String Kind = iota
+	Integer
+	Real
+)
+
+// String returns "string", "integer" or "real".
+func (k Kind) String() string {
+	switch k {
+	case String:
+		return "string"
+	case Integer:
+		return "integer"
+	case Real:
+		return "real"
+	}
+	return "Kind(" + strconv.Itoa(int(k)) + ")"
+}
+
+// Column is one attribute of a Layer. Decimals is the number of digits after
+// the point for Real values ('f' formatting); a negative Decimals writes the
+// shortest form that reads back exactly.
+type Column struct {
+	Name     string
+	Kind     Kind
+	Decimals int
+}
+
+// Row is one feature of a Layer. Values are in column order, each a string,
+// an integer type, a float64 (NaN and ±Inf are written as null), a bool or
+// nil (null).
+type Row struct {
+	Geometry orb.Geometry
+	Values   []any
+}
+
+// Layer is a neutral table of features, written as GeoJSON or CSV.
+type Layer struct {
+	Name    string
+	Columns []Column
+	Rows    []Row
+}
+
+// WriteGeoJSON writes l as an RFC 7946 FeatureCollection, atomically, one
+// feature per line, properties in column order, coordinates in the shortest
+// form that reads back exactly. A nil geometry is written as null. The
+// layer's Name becomes the foreign member "name". The same layer gives the
+// same bytes.
+func WriteGeoJSON(path string, l *Layer) error {
+	return WriteFileAtomic(path, func(w io.Writer) error {
+		bw := bufio.NewWriterSize(w, 1<<20)
+		buf := make([]byte, 0, 4096)
+		buf = append(buf, `{"type":"FeatureCollection"`...)
+		if l.Name != "" {
+			buf = append(buf, `,"name":`...)
+			buf = appendJSONString(buf, l.Name)
+		}
+		buf = append(buf, ",\"features\":[\n"...)
+		keys := make([][]byte, len(l.Columns))
+		for j, c := range l.Columns {
+			keys[j] = appendJSONString(nil, c.Name)
+		}
+		for i, r := range l.Rows {
+			if len(r.Values) != len(l.Columns) {
+				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
+			}
+			buf = append(buf, `{"type":"Feature","properties":{`...)
+			for j, c := range l.Columns {
+				if j > 0 {
+					buf = append(buf, ',')
+				}
+				buf = append(buf, keys[j]...)
+				buf = append(buf, ':')
+				var err error
+				if buf, err = appendJSONValue(buf, c, r.Values[j]); err != nil {
+					return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
+				}
+			}
+			buf = append(buf, `},"geometry":`...)
+			var err error
+			if buf, err = appendGeometry(buf, r.Geometry); err != nil {
+				return fmt.Errorf("gis: layer %q row %d: %w", l.Name, i+1, err)
+			}
+			buf = append(buf, '}')
+			if i < len(l.Rows)-1 {
+				buf = append(buf, ',')
+			}
+			buf = append(buf, '\n')
+			if _, err := bw.Write(buf); err != nil {
+				return err
+			}
+			buf = buf[:0]
+		}
+		buf = append(buf, "]}\n"...)
+		if _, err := bw.Write(buf); err != nil {
+			return err
+		}
+		return bw.Flush()
+	})
+}
+
+// WriteCSV writes l as CSV (RFC 4180 quoting), atomically: a header of
+// column names, then one record per row; no geometry. Null values are
+// empty fields.
+func WriteCSV(path string, l *Layer) error {
+	return WriteFileAtomic(path, func(w io.Writer) error {
+		cw := csv.NewWriter(w)
+		rec := make([]string, len(l.Columns))
+		for j, c := range l.Columns {
+			rec[j] = c.Name
+		}
+		if err := cw.Write(rec); err != nil {
+			return err
+		}
+		var buf []byte
+		for i, r := range l.Rows {
+			if len(r.Values) != len(l.Columns) {
+				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
+			}
+			for j, c := range l.Columns {
+				s, isNull, err := formatValue(buf[:0], c, r.Values[j])
+				if err != nil {
+					return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
+				}
+				if isNull {
+					rec[j] = ""
+				} else {
+					rec[j] = string(s)
+				}
+				buf = s
+			}
+			if err := cw.Write(rec); err != nil {
+				return err
+			}
+		}
+		cw.Flush()
+		return cw.Error()
+	})
+}
+
+// formatValue appends the text of v to buf. isNull reports a value written
+// as null (nil, NaN, ±Inf). Strings are appended raw (not quoted).
+func formatValue(buf []byte, c Column, v any) (out []byte, isNull bool, err error) {
+	switch x := v.(type) {
+	case nil:
+		return buf, true, nil
+	case string:
+		return append(buf, x...), false, nil
+	case bool:
+		return strconv.AppendBool(buf, x), false, nil
+	case int:
+		return strconv.AppendInt(buf, int64(x), 10), false, nil
+	case int8:
+		return strconv.AppendInt(buf, int64(x), 10), false, nil
+	case int16:
+		return strconv.AppendInt(buf, int64(x), 10), false, nil
+	case int32:
+		return strconv.AppendInt(buf, int64(x), 10), false, nil
+	case int64:
+		return strconv.AppendInt(buf, x, 10), false, nil
+	case uint:
+		return strconv.AppendUint(buf, uint64(x), 10), false, nil
+	case uint32:
+		return strconv.AppendUint(buf, uint64(x), 10), false, nil
+	case uint64:
+		return strconv.AppendUint(buf, x, 10), false, nil
+	case float32:
+		return formatFloat(buf, c, float64(x))
+	case float64:
+		return formatFloat(buf, c, x)
+	}
+	return buf, false, fmt.Errorf("unsupported value type %T", v)
+}
+
+func formatFloat(buf []byte, c Column, x float64) ([]byte, bool, error) {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return buf, true, nil
+	}
+	switch {
+	case c.Kind == Integer:
+		x = math.Round(x)
+		if x == 0 {
+			x = 0 // no "-0"
+		}
+		return strconv.AppendFloat(buf, x, 'f', 0, 64), false, nil
+	case c.Decimals < 0:
+		return strconv.AppendFloat(buf, x, 'g', -1, 64), false, nil
+	}
+	// Round first so that a tiny negative value does not print as "-0.00".
+	p := math.Pow(10, float64(c.Decimals))
+	if r := math.Round(x*p) / p; r == 0 && !math.IsInf(x*p, 0) {
+		x = 0
+	}
+	return strconv.AppendFloat(buf, x, 'f', c.Decimals, 64), false, nil
+}
+
+func appendJSONValue(buf []byte, c Column, v any) ([]byte, error) {
+	if s, ok := v.(string); ok {
+		return appendJSONString(buf, s), nil
+	}
+	out, isNull, err := formatValue(buf, c, v)
+	if err != nil {
+		return buf, err
+	}
+	if isNull {
+		return append(buf, "null"...), nil
+	}
+	return out, nil
+}
+
+// appendJSONString appends s as a JSON string (encoding/json's escaping).
+func appendJSONString(buf []byte, s string) []byte {
+	b, _ := json.Marshal(s) // a string always marshals
+	return append(buf, b...)
+}
+
+// appendGeometry appends g as a GeoJSON geometry object, or null.
+func appendGeometry(buf []byte, g orb.Geometry) ([]byte, error) {
+	var err error
+	switch x := g.(type) {
+	case nil:
+		return append(buf, "null"...), nil
+	case orb.Point:
+		buf = append(buf, `{"type":"Point","coordinates":`...)
+		buf, err = appendPoint(buf, x)
+	case orb.MultiPoint:
+		buf = append(buf, `{"type":"MultiPoint","coordinates":`...)
+		buf, err = appendPoints(buf, x)
+	case orb.LineString:
+		buf = append(buf, `{"type":"LineString","coordinates":`...)
+		buf, err = appendPoints(buf, x)
+	case orb.MultiLineString:
+		buf = append(buf, `{"type":"MultiLineString","coordinates":[`...)
+		for i, ls := range x {
+			if i > 0 {
+				buf = append(buf, ',')
+			}
+			if buf, err = appendPoints(buf, ls); err != nil {
+				return buf, err
+			}
+		}
+		buf = append(buf, ']')
+	case orb.Ring:
+		return appendGeometry(buf, orb.Polygon{x})
+	case orb.Bound:
+		return appendGeometry(buf, x.ToPolygon())
+	case orb.Polygon:
+		buf = append(buf, `{"type":"Polygon","coordinates":`...)
+		buf, err = appendPolygon(buf, x)
+	case orb.MultiPolygon:
+		buf = append(buf, `{"type":"MultiPolygon","coordinates":[`...)
+		for i, p := range x {
+			if i > 0 {
+				buf = append(buf, ',')
+			}
+			if buf, err = appendPolygon(buf, p); err != nil {
+				return buf, err
+			}
+		}
+		buf = append(buf, ']')
+	case orb.Collection:
+		buf = append(buf, `{"type":"GeometryCollection","geometries":[`...)
+		for i, m := range x {
+			if i > 0 {
+				buf = append(buf, ',')
+			}
+			if buf, err = appendGeometry(buf, m); err != nil {
+				return buf, err
+			}
+		}
+		buf = append(buf, ']')
+	default:
+		return buf, fmt.Errorf("unsupported geometry %T", g)
+	}
+	if err != nil {
+		return buf, err
+	}
+	return append(buf, '}'), nil
+}
+
+func appendPolygon(buf []byte, p orb.Polygon) ([]byte, error) {
+	buf = append(buf, '[')
+	for i, r := range p {
+		if i > 0 {
+			buf = append(buf, ',')
+		}
+		var err error
+		if buf, err = appendPoints(buf, r); err != nil {
+			return buf, err
+		}
+	}
+	return append(buf, ']'), nil
+}
+
+func appendPoints[S ~[]orb.Point](buf []byte, pts S) ([]byte, error) {
+	buf = append(buf, '[')
+	for i, q := range pts {
+		if i > 0 {
+			buf = append(buf, ',')
+		}
+		var err error
+		if buf, err = appendPoint(buf, q); err != nil {
+			return buf, err
+		}
+	}
+	return append(buf, ']'), nil
+}
+
+var errBadCoordinate = errors.New("coordinate is NaN or infinite")
+
+func appendPoint(buf []byte, q orb.Point) ([]byte, error) {
+	for _, x := range q {
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return buf, errBadCoordinate
+		}
+	}
+	buf = append(buf, '[')
+	buf = strconv.AppendFloat(buf, q[0], 'g', -1, 64)
+	buf = append(buf, ',')
+	buf = strconv.AppendFloat(buf, q[1], 'g', -1, 64)
+	return append(buf, ']'), nil
+}
+
+// WriteCollection writes an orb FeatureCollection (input layers for the
+// demo), atomically, one feature per line. Coordinates and json.Number
+// property values round-trip exactly; foreign members of the collection are
+// written in sorted key order, so the bytes are deterministic.
+func WriteCollection(path string, fc *geojson.FeatureCollection) error {
+	return WriteFileAtomic(path, func(w io.Writer) error {
+		bw := bufio.NewWriterSize(w, 1<<20)
+		bw.WriteString(`{"type":"FeatureCollection"`)
+		for _, k := range sortedKeys(fc.ExtraMembers) {
+			if k == "type" || k == "features" {
+				continue
+			}
+			v, err := json.Marshal(fc.ExtraMembers[k])
+			if err != nil {
+				return fmt.Errorf("gis: member %q: %w", k, err)
+			}
+			bw.WriteByte(',')
+			bw.Write(appendJSONString(nil, k))
+			bw.WriteByte(':')
+			bw.Write(v)
+		}
+		bw.WriteString(",\"features\":[\n")
+		for i, f := range fc.Features {
+			b, err := f.MarshalJSON()
+			if err != nil {
+				return fmt.Errorf("gis: feature %d: %w", i+1, err)
+			}
+			bw.Write(b)
+			if i < len(fc.Features)-1 {
+				bw.WriteByte(',')
+			}
+			bw.WriteByte('\n')
+		}
+		bw.WriteString("]}\n")
+		return bw.Flush()
+	})
+}
+
+// WriteFileAtomic writes a file through write into a temporary file in the
+// same directory, syncs it and renames it over path, so that readers see
+// either the old file or the complete new one. On any error the temporary
+// file is removed and path is left as it was. The file gets mode 0644.
+func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	if err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	defer func() {
+		if err != nil {
+			tmp.Close()
+			os.Remove(tmp.Name())
+		}
+	}()
+	if err = write(tmp); err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	if err = tmp.Chmod(0o644); err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	if err = tmp.Sync(); err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	if err = tmp.Close(); err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	if err = os.Rename(tmp.Name(), path); err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
+	if d, derr := os.Open(dir); derr == nil { // make the rename durable; best effort
+		d.Sync()
+		d.Close()
+	}
+	return nil
+}
