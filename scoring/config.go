@@ -100,14 +100,14 @@ func DefaultConfig() Config {
 // Validate reports the first invalid setting, naming its key: a negative or
 // non-finite weight, weights that sum to zero, a non-finite breakpoint,
 // breakpoints with Good == Poor, or an unknown unit system.
-// Keys: weights.{head_loss,velocity,c_factor,deficit},
-// {head_loss,velocity,c_factor,deficit}.{good,poor}, units.
+// Keys: weights.{headloss,velocity,c_factor,deficit},
+// {headloss,velocity,c_factor,deficit}.{good,poor}, units.
 func (c Config) Validate() error {
 	weights := []struct {
 		key string
 		w   float64
 	}{
-		{"head_loss", c.Weights.HeadLoss},
+		{"headloss", c.Weights.HeadLoss},
 		{"velocity", c.Weights.Velocity},
 		{"c_factor", c.Weights.CFactor},
 		{"deficit", c.Weights.Deficit},
@@ -127,7 +127,7 @@ func (c Config) Validate() error {
 		key string
 		b   Breakpoints
 	}{
-		{"head_loss", c.HeadLoss},
+		{"headloss", c.HeadLoss},
 		{"velocity", c.Velocity},
 		{"c_factor", c.CFactor},
 		{"deficit", c.Deficit},
