@@ -1,0 +1,313 @@
+package hydraulics
+
+import (
+	"fmt"
+	"math"
+)
+
+// spd is a symmetric positive-definite matrix with a fixed sparsity pattern, factorised as
+// P·A·Pᵀ = L·D·Lᵀ. The ordering and the symbolic factorisation are computed once in newSPD;
+// factor() repeats only the numeric factorisation, as the GGA needs on every Newton iteration.
+//
+// Storage: the strictly upper triangle of P·A·Pᵀ in compressed columns (column k holds the
+// rows i < k of the permuted matrix), its diagonal apart, and L in compressed columns with a
+// pattern fixed by the symbolic step. With the fill-reducing ordering of fillReducingOrder,
+// nnz(L) is a few times n for pipe networks. Factor and solve reuse workspaces held in the
+// value, so one spd must not be used from two goroutines at once.
+//
+// Method: the elimination tree and the column counts of L come from one pass over the pattern;
+// the numeric factorisation is the up-looking (row-by-row) simplicial LDLᵀ, in which row k of L
+// is the solution of a sparse triangular system whose pattern is the reach of column k of A in
+// the elimination tree. Reference: T. A. Davis, Direct Methods for Sparse Linear Systems, SIAM,
+// 2006, ch. 4 (cited from memory; the code is written from the algorithm).
+type spd struct {
+	n    int
+	perm []int32 // perm[k] is the caller's row eliminated k-th
+	pinv []int32 // pinv[perm[k]] = k
+
+	// Permuted matrix: diagonal and strict upper triangle by columns.
+	diag     []float64
+	colStart []int   // len n+1
+	rowIdx   []int32 // row of each upper entry (< its column)
+	val      []float64
+	pairSlot []int32 // pairs[k] -> index into val, or -(p+1) for a self-pair on permuted row p
+
+	// Symbolic factorisation.
+	parent []int32 // elimination tree; -1 at a root
+	lStart []int   // column starts of L, len n+1
+
+	// Numeric factorisation.
+	lRow []int32 // row indices of L by column
+	lVal []float64
+	d    []float64
+
+	// Workspaces.
+	y       []float64 // dense accumulator of the current row
+	pattern []int32   // nonzero pattern of the current row, in topological order
+	flag    []int32
+	lCount  []int32 // entries filled so far in each column of L
+	work    []float64
+}
+
+// pivotTiny is the smallest pivot d_k that factor accepts.
+const pivotTiny = 1e-300
+
+// notPositiveDefiniteError reports a pivot d_k <= 1e-300, or one that is not finite, in the
+// LDLᵀ factorisation. Row is in the caller's numbering. For a head system it means that a
+// group of nodes has no path to a fixed grade (the matrix is a singular Laplacian there) or
+// that the conductances are not finite.
+type notPositiveDefiniteError struct {
+	Row   int
+	Pivot float64
+}
+
+func (e *notPositiveDefiniteError) Error() string {
+	return fmt.Sprintf("hydraulics: matrix not positive definite at row %d (pivot %g)", e.Row, e.Pivot)
+}
+
+// newSPD builds the pattern of an n×n matrix whose off-diagonal nonzeros are the pairs (i,j), i≠j
+// (a pair and its mirror are one entry; repeated pairs are allowed and add up). x and y are planar
+// node coordinates for a geometric ordering; either may be nil (then use a purely graph-based ordering).
+//
+// A pair with i = j is accepted and adds to the diagonal. An index outside [0, n) is a caller
+// bug and panics. Cost: the ordering (about O(n log n) for planar networks) plus O(nnz(L)).
+func newSPD(n int, pairs [][2]int32, x, y []float64) *spd {
+	if n < 0 || n > math.MaxInt32 {
+		panic(fmt.Sprintf("hydraulics: spd size %d out of range", n))
+	}
+	for k, p := range pairs {
+		if p[0] < 0 || int(p[0]) >= n || p[1] < 0 || int(p[1]) >= n {
+			panic(fmt.Sprintf("hydraulics: spd pair %d (%d, %d) outside 0..%d", k, p[0], p[1], n-1))
+		}
+	}
+	return newSPDOrdered(n, pairs, fillReducingOrder(newAdjacency(n, pairs), x, y))
+}
+
+// newSPDOrdered is newSPD with a given elimination order: perm[k] is the row eliminated k-th.
+// The pairs must already be checked against n.
+func newSPDOrdered(n int, pairs [][2]int32, perm []int32) *spd {
+	m := &spd{n: n, perm: perm}
+	m.pinv = make([]int32, n)
+	for k, v := range m.perm {
+		m.pinv[v] = int32(k)
+	}
+	m.buildUpper(pairs)
+	m.symbolic()
+	nnzL := m.lStart[n]
+	m.lRow = make([]int32, nnzL)
+	m.lVal = make([]float64, nnzL)
+	m.d = make([]float64, n)
+	m.y = make([]float64, n)
+	m.pattern = make([]int32, n)
+	m.lCount = make([]int32, n)
+	m.work = make([]float64, n)
+	return m
+}
+
+// buildUpper lays out the permuted strict upper triangle by columns, merging repeated pairs
+// into one slot, and records each pair's slot.
+func (m *spd) buildUpper(pairs [][2]int32) {
+	n := m.n
+	m.diag = make([]float64, n)
+	m.pairSlot = make([]int32, len(pairs))
+	count := make([]int, n+1)
+	for _, p := range pairs {
+		if p[0] != p[1] {
+			i, j := m.pinv[p[0]], m.pinv[p[1]]
+			count[max(i, j)+1]++
+		}
+	}
+	for k := range n {
+		count[k+1] += count[k]
+	}
+	// Place every pair in its column, then compact each column, merging repeated rows.
+	rows := make([]int32, count[n])
+	owner := make([]int32, count[n]) // pair index of each placed entry
+	next := make([]int, n)
+	copy(next, count[:n])
+	for k, p := range pairs {
+		if p[0] == p[1] {
+			m.pairSlot[k] = -(m.pinv[p[0]] + 1)
+			continue
+		}
+		i, j := m.pinv[p[0]], m.pinv[p[1]]
+		col := max(i, j)
+		rows[next[col]] = min(i, j)
+		owner[next[col]] = int32(k)
+		next[col]++
+	}
+	m.colStart = make([]int, n+1)
+	last := make([]int, n) // row -> slot of that row in the column being compacted
+	seenIn := make([]int32, n)
+	for i := range seenIn {
+		seenIn[i] = -1
+	}
+	w := 0
+	for col := range n {
+		m.colStart[col] = w
+		for q := count[col]; q < count[col+1]; q++ {
+			r := rows[q]
+			if seenIn[r] != int32(col) {
+				seenIn[r] = int32(col)
+				last[r] = w
+				rows[w] = r
+				w++
+			}
+			m.pairSlot[owner[q]] = int32(last[r])
+		}
+	}
+	m.colStart[n] = w
+	m.rowIdx = rows[:w:w]
+	m.val = make([]float64, w)
+}
+
+// symbolic computes the elimination tree of the permuted matrix and the number of entries in
+// each column of L. Row k of L has a nonzero in column i exactly when i is on the tree path from
+// some upper entry (i₀, k) up to k; walking each such path and stopping at vertices already
+// marked for row k visits every nonzero of L once. Cost O(nnz(L)).
+func (m *spd) symbolic() {
+	n := m.n
+	m.parent = make([]int32, n)
+	m.flag = make([]int32, n)
+	colCount := make([]int, n)
+	for k := range n {
+		m.parent[k] = -1
+		m.flag[k] = int32(k)
+		for _, i := range m.rowIdx[m.colStart[k]:m.colStart[k+1]] {
+			for ; m.flag[i] != int32(k); i = m.parent[i] {
+				if m.parent[i] == -1 {
+					m.parent[i] = int32(k)
+				}
+				colCount[i]++
+				m.flag[i] = int32(k)
+			}
+		}
+	}
+	m.lStart = make([]int, n+1)
+	for k := range n {
+		m.lStart[k+1] = m.lStart[k] + colCount[k]
+	}
+}
+
+// clear sets every value to zero and keeps the pattern.
+func (m *spd) clear() {
+	clear(m.diag)
+	clear(m.val)
+}
+
+// addDiag adds v to A[i][i] (caller's numbering).
+func (m *spd) addDiag(i int, v float64) { m.diag[m.pinv[i]] += v }
+
+// addPair adds v to A[i][j] and to A[j][i] for (i, j) = pairs[k]. O(1).
+func (m *spd) addPair(k int, v float64) {
+	if s := m.pairSlot[k]; s >= 0 {
+		m.val[s] += v
+	} else {
+		m.diag[-s-1] += 2 * v
+	}
+}
+
+// factor computes the numeric factorisation P·A·Pᵀ = L·D·Lᵀ for the current values. For each
+// row k (up-looking form):
+//
+//	solve L[0:k,0:k]·D[0:k]·l = a   with a = (P·A·Pᵀ)[0:k, k], l = row k of L
+//	d_k = a_kk − Σ_i l_i² d_i
+//
+// It returns *notPositiveDefiniteError when some d_k <= 1e-300 or is not finite; the factor is
+// then unusable until the next successful call.
+func (m *spd) factor() error {
+	n := m.n
+	y, pattern, flag, parent := m.y, m.pattern, m.flag, m.parent
+	lRow, lVal, lStart, lCount, d := m.lRow, m.lVal, m.lStart, m.lCount, m.d
+	for k := range n {
+		// Scatter column k of the upper triangle into y and find the pattern of row k of L:
+		// the union of the tree paths from each entry's row up to k, in topological order.
+		k32 := int32(k)
+		flag[k] = k32
+		lCount[k] = 0
+		top := n
+		for p := m.colStart[k]; p < m.colStart[k+1]; p++ {
+			i := m.rowIdx[p]
+			y[i] += m.val[p]
+			length := 0
+			for ; flag[i] != k32; i = parent[i] {
+				pattern[length] = i
+				length++
+				flag[i] = k32
+			}
+			for length > 0 {
+				top--
+				length--
+				pattern[top] = pattern[length]
+			}
+		}
+		dk := m.diag[k]
+		// Sparse triangular solve for row k of L, one column i of the pattern at a time.
+		for _, i := range pattern[top:n] {
+			yi := y[i]
+			y[i] = 0
+			start := lStart[i]
+			end := start + int(lCount[i])
+			rows, vals := lRow[start:end], lVal[start:end:end]
+			vals = vals[:len(rows)]
+			for q, r := range rows {
+				y[r] -= vals[q] * yi
+			}
+			lki := yi / d[i]
+			dk -= lki * yi
+			lRow[end] = k32
+			lVal[end] = lki
+			lCount[i]++
+		}
+		if !(dk > pivotTiny) || math.IsInf(dk, 0) {
+			m.clearWork()
+			return &notPositiveDefiniteError{Row: int(m.perm[k]), Pivot: dk}
+		}
+		d[k] = dk
+	}
+	return nil
+}
+
+// clearWork resets the accumulator after an interrupted factorisation.
+func (m *spd) clearWork() { clear(m.y) }
+
+// solve overwrites b with A⁻¹·b (caller's numbering) using the last factorisation:
+//
+//	w = P·b;  L·u = w;  v = D⁻¹·u;  Lᵀ·z = v;  b = Pᵀ·z
+//
+// Cost O(n + nnz(L)).
+func (m *spd) solve(b []float64) {
+	w := m.work
+	for k, v := range m.perm {
+		w[k] = b[v]
+	}
+	for j := range m.n {
+		wj := w[j]
+		if wj == 0 {
+			continue
+		}
+		start, end := m.lStart[j], m.lStart[j+1]
+		rows, vals := m.lRow[start:end], m.lVal[start:end]
+		for q, r := range rows {
+			w[r] -= vals[q] * wj
+		}
+	}
+	for j := range m.n {
+		w[j] /= m.d[j]
+	}
+	for j := m.n - 1; j >= 0; j-- {
+		start, end := m.lStart[j], m.lStart[j+1]
+		rows, vals := m.lRow[start:end], m.lVal[start:end]
+		s := w[j]
+		for q, r := range rows {
+			s -= vals[q] * w[r]
+		}
+		w[j] = s
+	}
+	for k, v := range m.perm {
+		b[v] = w[k]
+	}
+}
+
+// factorNonzeros returns nnz(L), the number of entries of L strictly below the diagonal.
+func (m *spd) factorNonzeros() int { return m.lStart[m.n] }
