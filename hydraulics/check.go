@@ -19,6 +19,10 @@ type Limits struct {
 	DesignC float64
 	// Sizes are the standard sizes a replacement may take, ascending.
 	Sizes []Size
+	// MinNominal is the smallest nominal size a replacement may take, the
+	// utility's minimum main size (the Ten States Standards ask 6 in for
+	// mains that supply hydrants; DOMAIN.md §3.4). Zero means no minimum.
+	MinNominal Length
 }
 
 // PipeCheck is one pipe's result against the Limits in one scenario.
@@ -37,7 +41,8 @@ type PipeCheck struct {
 	// MaxSlope and MaxVelocity at |Flow| with Limits.DesignC.
 	RequiredInside Length
 	// Required is the smallest standard size whose inside diameter is at
-	// least RequiredInside; the zero Size when none in Limits.Sizes is.
+	// least RequiredInside and whose nominal size is at least
+	// Limits.MinNominal; the zero Size when none in Limits.Sizes is.
 	Required Size
 	// Failing criteria.
 	OverSlope, OverVelocity bool

@@ -72,6 +72,17 @@ func SmallestSize(sizes []Size, inside Length) (Size, bool) {
 	return best, found
 }
 
+// sizesFrom returns the sizes whose nominal size is at least minNominal
+// (a small tolerance absorbs unit conversion).
+func sizesFrom(sizes []Size, minNominal Length) []Size {
+	for i, s := range sizes {
+		if s.Nominal >= minNominal-1e-6 {
+			return sizes[i:]
+		}
+	}
+	return nil
+}
+
 // CheckPipes checks every pipe of net at the flows of sol against lim,
 // one PipeCheck per pipe in pipe order. Closed pipes and pipes in
 // unsupplied parts have zero flow in sol and are checked as such.
@@ -109,7 +120,7 @@ func CheckPipes(net *Network, sol *Solution, lim Limits) []PipeCheck {
 		}
 		if lim.DesignC > 0 {
 			ch.RequiredInside = RequiredInside(q, lim.DesignC, lim.MaxSlope, lim.MaxVelocity)
-			ch.Required, _ = SmallestSize(lim.Sizes, ch.RequiredInside)
+			ch.Required, _ = SmallestSize(sizesFrom(lim.Sizes, lim.MinNominal), ch.RequiredInside)
 		}
 		checks[j] = ch
 	}

@@ -203,3 +203,34 @@ func TestLowPressureAndNodePressure(t *testing.T) {
 		})
 	}
 }
+
+// The utility's minimum main size bounds the cure from below: a main that
+// a new 4-in would cure hydraulically still gets the minimum size, while a
+// larger hydraulic need is unaffected (DOMAIN.md §3.4: 6 in for mains that
+// supply hydrants, Ten States Standards; §9 item 12 for the 10-in case).
+func TestCheckPipesMinimumSize(t *testing.T) {
+	net := &Network{
+		Nodes: []Node{{ID: "R", Fixed: true, Grade: 100}, {ID: "J"}},
+		Pipes: []Pipe{{ID: "P", From: 0, To: 1, Length: 1000 * Foot, Diameter: 4 * Inch, C: 74}},
+	}
+	cases := []struct {
+		name       string
+		flowGPM    float64
+		minNominal Length
+		want       Length
+	}{
+		{"small flow, no minimum", 50, 0, 4 * Inch},
+		{"small flow, 6-in minimum", 50, 6 * Inch, 6 * Inch},
+		{"large flow, 6-in minimum", 1000, 6 * Inch, 10 * Inch},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			sol := &Solution{Head: []Head{100, 90}, Flow: []Flow{Flow(c.flowGPM) * USGallonPerMinute}}
+			lim := Limits{MaxSlope: 0.010, MaxVelocity: 5 * FootPerSecond, DesignC: 130, Sizes: StandardSizes(), MinNominal: c.minNominal}
+			got := CheckPipes(net, sol, lim)[0].Required.Nominal
+			if math.Abs(float64(got-c.want)) > 1e-9 {
+				t.Errorf("required %.2f in, want %.2f in", got.Inches(), c.want.Inches())
+			}
+		})
+	}
+}
