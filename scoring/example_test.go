@@ -54,7 +54,7 @@ func ExampleRank() {
 	}
 	// Output:
 	// LA-01 rank 3 score 1.2: meets the criteria
-	// LA-02 rank 1 score 77.2: head loss 33.4 ft/kft exceeds 10.0 ft/kft; carries 1.92× its capacity at 10.0 ft/kft (deficit 239 gpm); velocity 5.7 ft/s exceeds 5.0 ft/s; needs 8 in (now 6 in)
+	// LA-02 rank 1 score 77.2: head loss 33.4 ft/kft exceeds 10.0 ft/kft; carries 1.92× its capacity at 10.0 ft/kft (deficit 239 gpm); velocity 5.7 ft/s exceeds 5.0 ft/s; upsize to 8 in (now 6 in)
 	// LA-03 rank 0 score 0.0: closed
 	// LA-04 rank 2 score 22.9: aged C 64; meets the criteria
 }

@@ -72,13 +72,18 @@ func reasons(p Pipe, r Result, cfg Config, lim hydraulics.Limits) string {
 	return strings.Join(parts, "; ")
 }
 
-// cureText names the standard size that cures the pipe, or says that none
-// in the size list is large enough. It is empty when the check has no size.
+// cureText names the standard size that cures the pipe: an upsizing when
+// it is larger than the pipe's size now, a new main of the same size when
+// that cures it (a new main's C restores the capacity age took away), or
+// that none in the size list is large enough. It is empty when the check
+// has no size.
 func cureText(u hydraulics.System, p Pipe) string {
 	req := p.Check.Required
 	switch {
+	case req.Nominal > p.Diameter+1e-6:
+		return "upsize to " + diameterText(u, req.Nominal) + " (now " + diameterText(u, p.Diameter) + ")"
 	case req.Nominal > 0:
-		return "needs " + diameterText(u, req.Nominal) + " (now " + diameterText(u, p.Diameter) + ")"
+		return "a new " + diameterText(u, req.Nominal) + " main cures it"
 	case p.Check.RequiredInside > 0:
 		return "needs " + diameterText(u, p.Check.RequiredInside) + " inside, larger than any listed size"
 	}

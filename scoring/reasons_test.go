@@ -26,6 +26,10 @@ func TestReasons(t *testing.T) {
 	tooBig := sixInch("M-2")
 	tooBig.Check.Required = hydraulics.Size{}
 	tooBig.Check.RequiredInside = 25.31 * hydraulics.Inch
+	// An aged 6-in main whose cure is a new main of the same size: the
+	// new main's C, not a larger bore, restores the capacity.
+	inKind := sixInch("M-5")
+	inKind.Check.Required = hydraulics.Size{Nominal: 6 * hydraulics.Inch, Inside: 6.133 * hydraulics.Inch}
 	lowOnly := passing("M-4", 130)
 	lowOnly.LowPressure = true
 
@@ -43,14 +47,14 @@ func TestReasons(t *testing.T) {
 			pipe: sixInch("M-1"), cfg: us, lim: usLimits(),
 			want: "head loss 33.4 ft/kft exceeds 10.0 ft/kft; " +
 				"carries 1.92× its capacity at 10.0 ft/kft (deficit 239 gpm); " +
-				"velocity 5.7 ft/s exceeds 5.0 ft/s; needs 8 in (now 6 in)",
+				"velocity 5.7 ft/s exceeds 5.0 ft/s; upsize to 8 in (now 6 in)",
 		},
 		{
 			name: "SI: ordered by points, low pressure last",
 			pipe: siPipe(), cfg: si, lim: siLimits(),
 			want: "head loss 12.8 m/km exceeds 10.0 m/km; velocity 1.59 m/s exceeds 1.50 m/s; " +
 				"carries 1.14× its capacity at 10.0 m/km (deficit 6.3 L/s); " +
-				"needs 250 mm (now 200 mm); an end is below 280 kPa",
+				"upsize to 250 mm (now 200 mm); an end is below 280 kPa",
 		},
 		{
 			// The same pipe read in US units: 6.314 L/s = 100.1 gpm, 1.592 m/s =
@@ -59,7 +63,7 @@ func TestReasons(t *testing.T) {
 			pipe: siPipe(), cfg: us, lim: siLimits(),
 			want: "head loss 12.8 ft/kft exceeds 10.0 ft/kft; velocity 5.2 ft/s exceeds 4.9 ft/s; " +
 				"carries 1.14× its capacity at 10.0 ft/kft (deficit 100 gpm); " +
-				"needs 9.8 in (now 7.9 in); an end is below 41 psi",
+				"upsize to 9.8 in (now 7.9 in); an end is below 41 psi",
 		},
 		{
 			name: "no listed size is large enough",
@@ -67,6 +71,13 @@ func TestReasons(t *testing.T) {
 			want: "head loss 33.4 ft/kft exceeds 10.0 ft/kft; " +
 				"carries 1.92× its capacity at 10.0 ft/kft (deficit 239 gpm); " +
 				"velocity 5.7 ft/s exceeds 5.0 ft/s; needs 25.3 in inside, larger than any listed size",
+		},
+		{
+			name: "cured by a new main of the same size",
+			pipe: inKind, cfg: us, lim: usLimits(),
+			want: "head loss 33.4 ft/kft exceeds 10.0 ft/kft; " +
+				"carries 1.92× its capacity at 10.0 ft/kft (deficit 239 gpm); " +
+				"velocity 5.7 ft/s exceeds 5.0 ft/s; a new 6 in main cures it",
 		},
 		{
 			name: "passes",
