@@ -1,0 +1,45 @@
+package main
+
+import (
+	"bytes"
+	"testing"
+
+	"headroom/demotown"
+)
+
+// benchmarkRun measures the whole pipeline (read from memory, snap, join,
+// age, solve, check, score, write the four files) on a demo town of about
+// n pipe segments. The town is generated once, outside the timer.
+func benchmarkRun(b *testing.B, n int) {
+	town, err := demotown.Generate(demotown.Options{Pipes: n})
+	if err != nil {
+		b.Fatal(err)
+	}
+	var text bytes.Buffer
+	if err := writeConfig(&text, demoConfig(town)); err != nil {
+		b.Fatal(err)
+	}
+	cfg, err := decodeConfig(text.String(), "bench")
+	if err != nil {
+		b.Fatal(err)
+	}
+	in := &inputs{cfg: cfg, title: "bench", pipes: town.Pipes, sources: town.Sources, demands: town.Demands, elevations: town.Elevations}
+	out := b.TempDir()
+	var iters int
+	for b.Loop() {
+		r, err := analyse(in)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := writeOutputs(out, r); err != nil {
+			b.Fatal(err)
+		}
+		iters = r.sol.Iterations
+	}
+	pipes := float64(len(town.Pipes.Features))
+	b.ReportMetric(pipes*float64(b.N)/b.Elapsed().Seconds(), "pipes/s")
+	b.ReportMetric(float64(iters), "GGA-iters")
+}
+
+func BenchmarkRunDemo10k(b *testing.B)  { benchmarkRun(b, 10_000) }
+func BenchmarkRunDemo100k(b *testing.B) { benchmarkRun(b, 100_000) }

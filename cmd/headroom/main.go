@@ -1,0 +1,82 @@
+// Command headroom turns a water utility's GIS layers into a ranked list of
+// mains to replace or upsize: it builds the pipe network, solves it with
+// Hazen-Williams and aged C-factors, checks every main against planning
+// criteria, scores and ranks them, and writes the results as GIS layers.
+//
+// Usage:
+//
+//	headroom run  [--config FILE] [--out DIR]   run a config, or the built-in demo town
+//	headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and config
+//	headroom init                               print a commented config template
+//
+// Results are planning-level screening, not a calibrated model; see the
+// README's cautions.
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+)
+
+// Exit codes.
+const (
+	exitOK    = 0
+	exitError = 1 // the run failed: bad input, no convergence, a write error
+	exitUsage = 2 // the command line was wrong
+)
+
+func main() {
+	os.Exit(headroomMain(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// headroomMain dispatches a subcommand and returns the process exit code.
+func headroomMain(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		usage(stderr)
+		return exitUsage
+	}
+	var err error
+	switch args[0] {
+	case "run":
+		err = runCommand(args[1:], stdout, stderr)
+	case "demo":
+		err = demoCommand(args[1:], stdout, stderr)
+	case "init":
+		err = initCommand(args[1:], stdout, stderr)
+	case "help", "-h", "-help", "--help":
+		usage(stdout)
+		return exitOK
+	default:
+		fmt.Fprintf(stderr, "headroom: unknown command %q\n\n", args[0])
+		usage(stderr)
+		return exitUsage
+	}
+	if err == nil {
+		return exitOK
+	}
+	if ue, ok := err.(usageError); ok {
+		fmt.Fprintf(stderr, "headroom %s: %s\n", args[0], ue.msg)
+		return exitUsage
+	}
+	fmt.Fprintf(stderr, "headroom %s: %v\n", args[0], err)
+	return exitError
+}
+
+// usageError is a mistake on the command line (exit code 2).
+type usageError struct{ msg string }
+
+func (e usageError) Error() string { return e.msg }
+
+func usage(w io.Writer) {
+	fmt.Fprint(w, `headroom ranks water mains for replacement and upsizing from GIS layers.
+
+Commands:
+  headroom run  [--config FILE] [--out DIR]       run a config (default: the built-in demo town)
+  headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and a config that runs them
+  headroom init                                   print a commented config template with every key
+
+Outputs (in --out, default headroom-out): ranked.csv, pipes.geojson, nodes.geojson, problems.csv.
+Results are planning-level screening; see the cautions in the run summary and the README.
+`)
+}

@@ -1,0 +1,222 @@
+package main
+
+import (
+	"cmp"
+	"fmt"
+	"math"
+	"path/filepath"
+	"slices"
+
+	"headroom/gis"
+	"headroom/hydraulics"
+)
+
+// writeOutputs writes the four result files into dir, each atomically, and
+// returns their paths in the order written.
+func writeOutputs(dir string, r *result) ([]string, error) {
+	if err := prepareOutDir(dir); err != nil {
+		return nil, err
+	}
+	pipes := r.pipeLayer()
+	files := []struct {
+		name  string
+		write func(string, *gis.Layer) error
+		layer *gis.Layer
+	}{
+		{"ranked.csv", gis.WriteCSV, r.rankedLayer(pipes)},
+		{"pipes.geojson", gis.WriteGeoJSON, pipes},
+		{"nodes.geojson", gis.WriteGeoJSON, r.nodeLayer()},
+		{"problems.csv", gis.WriteCSV, r.problemLayer()},
+	}
+	var written []string
+	for _, f := range files {
+		path := filepath.Join(dir, f.name)
+		if r.isInput(path) {
+			return written, fmt.Errorf("%s is one of the run's inputs; choose another --out so inputs are never overwritten", path)
+		}
+		if err := f.write(path, f.layer); err != nil {
+			return written, fmt.Errorf("writing %s: %w", path, err)
+		}
+		written = append(written, path)
+	}
+	return written, nil
+}
+
+// isInput reports whether path names one of the run's input files.
+func (r *result) isInput(path string) bool {
+	out, err := filepath.Abs(path)
+	if err != nil {
+		return false
+	}
+	for _, in := range r.inputPaths {
+		if a, err := filepath.Abs(in); err == nil && a == out {
+			return true
+		}
+	}
+	return false
+}
+
+// pipeColumns are the columns of pipes.geojson and, after rank, of ranked.csv.
+func (r *result) pipeColumns() []gis.Column {
+	s := r.cfg.system()
+	d, l, q, v, h := s.DiameterSuffix(), s.LengthSuffix(), s.FlowSuffix(), s.VelocitySuffix(), s.UnitHeadLossSuffix()
+	return []gis.Column{
+		{Name: "pipe_id", Kind: gis.String},
+		{Name: "feature", Kind: gis.Integer},
+		{Name: "rank", Kind: gis.Integer},
+		{Name: "score", Kind: gis.Real, Decimals: 1},
+		{Name: "status", Kind: gis.String},
+		{Name: "material", Kind: gis.String},
+		{Name: "install_year", Kind: gis.Integer},
+		{Name: "diameter_" + d, Kind: gis.Real, Decimals: 2},
+		{Name: "length_" + l, Kind: gis.Real, Decimals: 1},
+		{Name: "c_factor", Kind: gis.Real, Decimals: 1},
+		{Name: "c_basis", Kind: gis.String},
+		{Name: "from_node", Kind: gis.String},
+		{Name: "to_node", Kind: gis.String},
+		{Name: "flow_" + q, Kind: gis.Real, Decimals: 2},
+		{Name: "velocity_" + v, Kind: gis.Real, Decimals: 3},
+		{Name: "headloss_" + h, Kind: gis.Real, Decimals: 3},
+		{Name: "capacity_" + q, Kind: gis.Real, Decimals: 1},
+		{Name: "deficit_" + q, Kind: gis.Real, Decimals: 1},
+		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 0},
+		{Name: "score_headloss", Kind: gis.Real, Decimals: 1},
+		{Name: "score_velocity", Kind: gis.Real, Decimals: 1},
+		{Name: "score_c_factor", Kind: gis.Real, Decimals: 1},
+		{Name: "score_deficit", Kind: gis.Real, Decimals: 1},
+		{Name: "reasons", Kind: gis.String},
+	}
+}
+
+// pipeLayer has one row per input pipe, in input order: nothing is lost.
+func (r *result) pipeLayer() *gis.Layer {
+	s := r.cfg.system()
+	l := &gis.Layer{Name: "pipes", Columns: r.pipeColumns(), Rows: make([]gis.Row, len(r.pipes))}
+	for i, p := range r.pipes {
+		sc := r.scores[i]
+		status := "open"
+		if p.Closed {
+			status = "closed"
+		}
+		var year any
+		if p.InstallYear > 0 {
+			year = p.InstallYear
+		}
+		vals := []any{
+			p.ID, p.Index, nil, nil, status, p.Material, year,
+			s.Diameter(p.Diameter), s.Length(p.Length), r.cFactor[i], r.cBasis[i],
+			nil, nil, // nodes
+			nil, nil, nil, nil, nil, nil, // hydraulics
+			nil, nil, nil, nil, // sub-scores
+			sc.Reasons,
+		}
+		if j := r.netIndex[i]; j >= 0 {
+			np := r.net.Pipes[j]
+			vals[11], vals[12] = r.net.Nodes[np.From].ID, r.net.Nodes[np.To].ID
+			if !r.unsupplied(j) {
+				c := r.checks[j]
+				vals[13], vals[14], vals[15] = s.Flow(c.Flow), s.Velocity(c.Velocity), s.UnitHeadLoss(c.Slope)
+				vals[16], vals[17] = s.Flow(c.Capacity), s.Flow(c.Deficit)
+				if c.Required.Nominal > 0 {
+					vals[18] = s.Diameter(c.Required.Nominal)
+				}
+			}
+		}
+		if sc.Scored {
+			vals[2], vals[3] = sc.Rank, sc.Score
+			vals[19], vals[20], vals[21], vals[22] = sc.HeadLoss, sc.Velocity, sc.CFactor, sc.Deficit
+		}
+		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: vals}
+	}
+	return l
+}
+
+// rankedLayer is the scored rows of the pipe layer, rank 1 first.
+func (r *result) rankedLayer(pipes *gis.Layer) *gis.Layer {
+	l := &gis.Layer{Name: "ranked", Columns: pipes.Columns}
+	for i, sc := range r.scores {
+		if sc.Scored {
+			l.Rows = append(l.Rows, gis.Row{Values: pipes.Rows[i].Values})
+		}
+	}
+	slices.SortStableFunc(l.Rows, func(a, b gis.Row) int {
+		return cmp.Compare(a.Values[2].(int), b.Values[2].(int))
+	})
+	// rank first, as a reader of a ranked list expects
+	l.Columns = append([]gis.Column{l.Columns[2]}, slices.Concat(l.Columns[:2], l.Columns[3:])...)
+	for k, row := range l.Rows {
+		v := row.Values
+		l.Rows[k].Values = append([]any{v[2]}, slices.Concat(v[:2], v[3:])...)
+	}
+	return l
+}
+
+// nodeLayer has one row per node with its peak-hour head and pressure.
+func (r *result) nodeLayer() *gis.Layer {
+	s := r.cfg.system()
+	e, q, p := s.LengthSuffix(), s.FlowSuffix(), s.PressureSuffix()
+	layer := &gis.Layer{Name: "nodes", Columns: []gis.Column{
+		{Name: "node_id", Kind: gis.String},
+		{Name: "kind", Kind: gis.String},
+		{Name: "source_id", Kind: gis.String},
+		{Name: "elevation_" + e, Kind: gis.Real, Decimals: 2},
+		{Name: "demand_" + q, Kind: gis.Real, Decimals: 3},
+		{Name: "average_day_demand_" + q, Kind: gis.Real, Decimals: 3},
+		{Name: "head_" + e, Kind: gis.Real, Decimals: 3},
+		{Name: "pressure_" + p, Kind: gis.Real, Decimals: 2},
+		{Name: "below_min_pressure", Kind: gis.String},
+	}}
+	sourceOf := make(map[int]string, len(r.supplies))
+	for _, sp := range r.supplies {
+		sourceOf[sp.Node] = r.sources[sp.Source].ID
+	}
+	low := make(map[int]bool, len(r.lowNodes))
+	for _, n := range r.lowNodes {
+		low[n] = true
+	}
+	for i, n := range r.net.Nodes {
+		kind, factor := "junction", r.cfg.Demands.PeakHourFactor
+		if n.Fixed {
+			kind, factor = "source", 0
+		}
+		var head, pres, below any
+		if h := r.sol.Head[i]; !math.IsNaN(float64(h)) {
+			head = s.Head(h)
+			pres = s.Pressure(hydraulics.NodePressure(n, h))
+			below = "no"
+			if low[i] {
+				below = "yes"
+			}
+		}
+		var src any
+		if id, ok := sourceOf[i]; ok {
+			src = id
+		}
+		layer.Rows = append(layer.Rows, gis.Row{
+			Geometry: r.topo.Nodes[i].At,
+			Values: []any{n.ID, kind, src, s.Length(n.Elevation), s.Flow(n.Demand * hydraulics.Flow(factor)),
+				s.Flow(n.Demand), head, pres, below},
+		})
+	}
+	return layer
+}
+
+// problemLayer lists every input problem found, in the order found.
+func (r *result) problemLayer() *gis.Layer {
+	l := &gis.Layer{Name: "problems", Columns: []gis.Column{
+		{Name: "file", Kind: gis.String},
+		{Name: "feature", Kind: gis.Integer},
+		{Name: "id", Kind: gis.String},
+		{Name: "field", Kind: gis.String},
+		{Name: "problem", Kind: gis.String},
+		{Name: "action", Kind: gis.String},
+	}}
+	for _, p := range r.problems {
+		var feature any
+		if p.Feature > 0 {
+			feature = p.Feature
+		}
+		l.Rows = append(l.Rows, gis.Row{Values: []any{p.File, feature, p.ID, p.Field, p.What, p.Action}})
+	}
+	return l
+}

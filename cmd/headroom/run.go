@@ -1,0 +1,315 @@
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+
+	"github.com/paulmach/orb/geojson"
+
+	"headroom/gis"
+	"headroom/hydraulics"
+	"headroom/scoring"
+)
+
+// runCommand is `headroom run [--config FILE] [--out DIR]`.
+func runCommand(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("run", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	configPath := fs.String("config", "", "TOML config file (default: the built-in demo town)")
+	outDir := fs.String("out", "headroom-out", "folder the results are written to")
+	if err := fs.Parse(args); err != nil {
+		return usageError{err.Error()}
+	}
+	if fs.NArg() > 0 {
+		return usageError{fmt.Sprintf("unexpected argument %q", fs.Arg(0))}
+	}
+	in, err := openInputs(*configPath)
+	if err != nil {
+		return err
+	}
+	res, err := analyse(in)
+	if err != nil {
+		return err
+	}
+	written, err := writeOutputs(*outDir, res)
+	if err != nil {
+		return err
+	}
+	return writeSummary(stdout, res, written)
+}
+
+// inputs are the config and the four layers, from files or from the
+// built-in demo town (already decoded).
+type inputs struct {
+	cfg   *Config
+	title string
+	// collections, when not nil, replace reading the layer files; names
+	// are the layer file names used in messages either way.
+	pipes, sources, demands, elevations *geojson.FeatureCollection
+}
+
+func openInputs(configPath string) (*inputs, error) {
+	if configPath == "" {
+		return builtInDemo()
+	}
+	cfg, err := loadConfig(configPath)
+	if err != nil {
+		return nil, err
+	}
+	return &inputs{cfg: cfg, title: cfg.file}, nil
+}
+
+// result is everything the writers and the summary need.
+type result struct {
+	cfg        *Config
+	title      string
+	pipes      []gis.Pipe
+	sources    []gis.Point
+	demands    []gis.Point
+	elevations []gis.Point
+	topo       *gis.Topology
+	supplies   []gis.Supply
+	net        *hydraulics.Network
+	netIndex   []int // per input pipe, its index in net.Pipes or -1
+	cFactor    []float64
+	cBasis     []string
+	sol        *hydraulics.Solution
+	checks     []hydraulics.PipeCheck
+	lowNodes   []int
+	scores     []scoring.Result
+	problems   []gis.Problem
+	limits     hydraulics.Limits
+	inputPaths []string // layer and config files read, never to be overwritten
+}
+
+// analyse runs the pipeline: read, build, allocate, age, solve, check, score.
+func analyse(in *inputs) (*result, error) {
+	cfg := in.cfg
+	r := &result{cfg: cfg, title: in.title, limits: cfg.limits()}
+	if in.pipes == nil {
+		r.inputPaths = []string{cfg.path(cfg.Pipes.Path), cfg.path(cfg.Sources.Path),
+			cfg.path(cfg.Demands.Path), cfg.path(cfg.Elevations.Path), filepath.Join(cfg.dir, cfg.file)}
+	}
+	if err := readLayers(in, r); err != nil {
+		return nil, err
+	}
+	topo, probs := gis.Snap(r.pipes, hydraulics.Length(cfg.si(cfg.snapTolerance())))
+	r.topo = topo
+	r.problems = append(r.problems, probs...)
+
+	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
+	r.problems = append(r.problems, probs...)
+	if len(supplies) == 0 {
+		return nil, fmt.Errorf("%s: no source lies within %s of a pipe end; check the source locations and network.source_search",
+			cfg.Sources.Path, formatLength(cfg, cfg.si(cfg.sourceSearch())))
+	}
+	r.supplies = supplies
+	fixed := make([]bool, len(topo.Nodes))
+	for _, s := range supplies {
+		fixed[s.Node] = true
+	}
+	demand, probs := gis.AllocateDemands(topo, r.demands, fixed, hydraulics.Length(cfg.si(cfg.warnDistance())))
+	r.problems = append(r.problems, probs...)
+	elev, err := gis.InterpolateElevations(topo, r.elevations, cfg.Elevations.Neighbours, cfg.Elevations.Power)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", cfg.Elevations.Path, err)
+	}
+
+	r.cFactor, r.cBasis = agedC(cfg, r)
+	r.net, r.netIndex = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
+
+	sol, err := hydraulics.Solve(r.net, &hydraulics.Options{
+		DemandFactor:  cfg.Demands.PeakHourFactor,
+		Tolerance:     cfg.Solver.Tolerance,
+		MaxIterations: cfg.Solver.MaxIterations,
+	})
+	if err != nil {
+		var nc *hydraulics.NotConvergedError
+		if errors.As(err, &nc) {
+			return nil, fmt.Errorf("peak-hour solve: %w; no results were written. Check the worst pipe's diameter, length and C, closed pipes that split the network, and source grades", err)
+		}
+		return nil, fmt.Errorf("peak-hour solve: %w", err)
+	}
+	r.sol = sol
+	r.noteUnsupplied()
+	r.checks = hydraulics.CheckPipes(r.net, sol, r.limits)
+	r.lowNodes = hydraulics.LowPressure(r.net, sol, r.limits)
+	r.noteFormulaRange()
+
+	scores, err := scoring.Rank(r.scoringInput(), cfg.scoringConfig(), r.limits)
+	if err != nil {
+		return nil, err
+	}
+	r.scores = scores
+	return r, nil
+}
+
+// readLayers reads the four layers, from files or from memory.
+func readLayers(in *inputs, r *result) error {
+	cfg := in.cfg
+	var probs []gis.Problem
+	var err error
+	name := func(p string) string { return filepath.Base(p) }
+	if in.pipes != nil {
+		r.pipes, probs, err = gis.PipesFromCollection(name(cfg.Pipes.Path), in.pipes, cfg.pipeSchema(), cfg.AnalysisYear)
+	} else {
+		r.pipes, probs, err = gis.ReadPipes(cfg.path(cfg.Pipes.Path), cfg.pipeSchema(), cfg.AnalysisYear)
+	}
+	if err != nil {
+		return err
+	}
+	r.problems = append(r.problems, probs...)
+	if in.sources != nil {
+		r.sources, probs, err = gis.SourcesFromCollection(name(cfg.Sources.Path), in.sources, cfg.sourceSchema())
+	} else {
+		r.sources, probs, err = gis.ReadSources(cfg.path(cfg.Sources.Path), cfg.sourceSchema())
+	}
+	if err != nil {
+		return err
+	}
+	r.problems = append(r.problems, probs...)
+	if in.demands != nil {
+		r.demands, probs, err = gis.DemandsFromCollection(name(cfg.Demands.Path), in.demands, cfg.demandSchema())
+	} else {
+		r.demands, probs, err = gis.ReadDemands(cfg.path(cfg.Demands.Path), cfg.demandSchema())
+	}
+	if err != nil {
+		return err
+	}
+	r.problems = append(r.problems, probs...)
+	if in.elevations != nil {
+		r.elevations, probs, err = gis.ElevationsFromCollection(name(cfg.Elevations.Path), in.elevations, cfg.elevationSchema())
+	} else {
+		r.elevations, probs, err = gis.ReadElevations(cfg.path(cfg.Elevations.Path), cfg.elevationSchema())
+	}
+	if err != nil {
+		return err
+	}
+	r.problems = append(r.problems, probs...)
+	return nil
+}
+
+// agedC returns each pipe's Hazen-Williams C and how it was found: a measured
+// C from the layer overrides the aging table (DESIGN.md, C aging).
+func agedC(cfg *Config, r *result) ([]float64, []string) {
+	table := cfg.agingTable()
+	fallback, _ := table.Lookup(cfg.Aging.UnknownMaterial)
+	c := make([]float64, len(r.pipes))
+	basis := make([]string, len(r.pipes))
+	for i, p := range r.pipes {
+		if p.MeasuredC > 0 {
+			c[i], basis[i] = p.MeasuredC, "measured"
+			continue
+		}
+		curve, ok := table.Lookup(p.Material)
+		if !ok {
+			curve = fallback
+			if p.Usable {
+				r.problems = append(r.problems, gis.Problem{
+					File: filepath.Base(cfg.Pipes.Path), Feature: p.Index, ID: p.ID, Field: cfg.Pipes.Fields.Material,
+					What:   fmt.Sprintf("material %q is not in the aging table", p.Material),
+					Action: fmt.Sprintf("C taken from the %s curve; add the material or an alias to [[aging.curve]]", curve.Material),
+				})
+			}
+		}
+		age, how := float64(cfg.AnalysisYear-p.InstallYear), "aged"
+		if p.InstallYear == 0 {
+			age, how = cfg.Aging.UnknownAgeYears, "assumed age"
+		}
+		c[i] = curve.C(math.Max(age, 0))
+		basis[i] = fmt.Sprintf("%s %s %.0f yr", how, curve.Material, math.Max(age, 0))
+	}
+	return c, basis
+}
+
+// noteUnsupplied lists, per pipe, the pipes in parts of the network that no
+// source reaches through open pipes.
+func (r *result) noteUnsupplied() {
+	if len(r.sol.Unsupplied) == 0 {
+		return
+	}
+	file := filepath.Base(r.cfg.Pipes.Path)
+	for i, p := range r.pipes {
+		if j := r.netIndex[i]; j >= 0 && r.unsupplied(j) {
+			r.problems = append(r.problems, gis.Problem{
+				File: file, Feature: p.Index, ID: p.ID, Field: "geometry",
+				What:   "no source reaches this pipe through open pipes",
+				Action: "pipe not scored; check for unsnapped ends, closed valves, or a missing source in this part of the network",
+			})
+		}
+	}
+}
+
+// noteFormulaRange lists the solved pipes outside the range Hazen-Williams
+// is usually trusted in (about 2–90 in and up to 10 ft/s; DOMAIN.md §1.4).
+func (r *result) noteFormulaRange() {
+	file := filepath.Base(r.cfg.Pipes.Path)
+	for i, p := range r.pipes {
+		j := r.netIndex[i]
+		if j < 0 || p.Closed || r.unsupplied(j) {
+			continue
+		}
+		if ok, why := hydraulics.HWValid(p.Diameter, r.checks[j].Velocity); !ok {
+			r.problems = append(r.problems, gis.Problem{
+				File: file, Feature: p.Index, ID: p.ID, Field: r.cfg.Pipes.Fields.Diameter,
+				What:   why,
+				Action: "pipe scored, but its head loss is less certain outside the Hazen-Williams range; check the diameter",
+			})
+		}
+	}
+}
+
+// unsupplied reports whether net pipe j touches a node no source reaches.
+func (r *result) unsupplied(j int) bool {
+	p := r.net.Pipes[j]
+	return math.IsNaN(float64(r.sol.Head[p.From])) || math.IsNaN(float64(r.sol.Head[p.To]))
+}
+
+// scoringInput describes each input pipe to the scorer.
+func (r *result) scoringInput() []scoring.Pipe {
+	low := make(map[int]bool, len(r.lowNodes))
+	for _, n := range r.lowNodes {
+		low[n] = true
+	}
+	in := make([]scoring.Pipe, len(r.pipes))
+	for i, p := range r.pipes {
+		sp := scoring.Pipe{Index: i, ID: p.ID, C: r.cFactor[i], Diameter: p.Diameter}
+		j := r.netIndex[i]
+		switch {
+		case !p.Usable:
+			sp.Reason = "not in the network: " + p.Reason
+		case j < 0:
+			sp.Reason = "not in the network"
+		case p.Closed:
+			sp.Reason = "closed: carries no flow"
+		case r.unsupplied(j):
+			sp.Reason = "no source reaches this pipe"
+		default:
+			sp.Scorable = true
+			sp.Check = r.checks[j]
+			np := r.net.Pipes[j]
+			sp.LowPressure = low[np.From] || low[np.To]
+		}
+		in[i] = sp
+	}
+	return in
+}
+
+// formatLength shows an SI length in the run's units.
+func formatLength(cfg *Config, metres float64) string {
+	s := cfg.system()
+	return fmt.Sprintf("%.1f %s", s.Length(hydraulics.Length(metres)), s.LengthLabel())
+}
+
+// check that the output folder is not a file before any work is lost.
+func prepareOutDir(dir string) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("creating output folder: %w (choose another --out)", err)
+	}
+	return nil
+}

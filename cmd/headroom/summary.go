@@ -1,0 +1,139 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strings"
+	"text/tabwriter"
+
+	"headroom/hydraulics"
+	"headroom/scoring"
+)
+
+// cautions are printed after every run and repeated in the README.
+var cautions = []string{
+	"Planning-level screening, not a calibrated hydraulic model: results rest on assumed C-factors, demand allocation, the peaking factor, source grades and elevations, none checked against field tests unless you supplied measured C values.",
+	"Aged C-factors are estimates (the Sharp & Walski fit has a 95 % band of about ±15 in C); treat deficits near a criterion as possible, not certain.",
+	"Steady state only: no pumps or controls over time, no tank drain-down, no transients.",
+	"Pressure and fire-flow decisions follow the locally adopted codes and the fire authority having jurisdiction; designs and submittals need the review and seal of a licensed professional engineer.",
+}
+
+// writeSummary prints the run summary: counts, the scenario's statistics,
+// the top ten, the criteria used and the cautions.
+func writeSummary(w io.Writer, r *result, written []string) error {
+	var b strings.Builder
+	s := r.cfg.system()
+	p := func(format string, a ...any) { fmt.Fprintf(&b, format, a...) }
+
+	p("headroom: %s, analysis year %d, units %s\n\n", r.title, r.cfg.AnalysisYear, s)
+	r.summariseInputs(p)
+	r.summariseSolve(p)
+	r.summariseTop(&b)
+	p("\nCriteria (peak hour): unit head loss %.1f %s, velocity %.1f %s, pressure %.1f %s; design C %.0f for sizing\n",
+		s.UnitHeadLoss(r.limits.MaxSlope), s.UnitHeadLossLabel(), s.Velocity(r.limits.MaxVelocity), s.VelocityLabel(),
+		s.Pressure(r.limits.MinPressure), s.PressureLabel(), r.limits.DesignC)
+	p("Problems found in the input: %d (see problems.csv)\n", len(r.problems))
+	p("Wrote %s\n", strings.Join(written, ", "))
+	p("\nCautions\n")
+	for _, c := range cautions {
+		p("  - %s\n", c)
+	}
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+func (r *result) summariseInputs(p func(string, ...any)) {
+	s := r.cfg.system()
+	var usable, closed int
+	for _, pp := range r.pipes {
+		if pp.Usable {
+			usable++
+		}
+		if pp.Closed {
+			closed++
+		}
+	}
+	var add hydraulics.Flow
+	for _, n := range r.net.Nodes {
+		add += n.Demand
+	}
+	p("Inputs\n")
+	var t strings.Builder
+	tw := tabwriter.NewWriter(&t, 0, 0, 2, ' ', 0)
+	fmt.Fprintf(tw, "  %s\t%d pipes: %d in the network (%d closed), %d left out\n", r.cfg.Pipes.Path, len(r.pipes), usable, closed, len(r.pipes)-usable)
+	fmt.Fprintf(tw, "  %s\t%d sources, %d joined to the network\n", r.cfg.Sources.Path, len(r.sources), len(r.supplies))
+	fmt.Fprintf(tw, "  %s\t%d points, %.1f %s average day\n", r.cfg.Demands.Path, len(r.demands), s.Flow(add), s.FlowLabel())
+	fmt.Fprintf(tw, "  %s\t%d spot heights\n", r.cfg.Elevations.Path, len(r.elevations))
+	fmt.Fprintf(tw, "  %s\t%d nodes, %d pipes\n", "network", len(r.net.Nodes), len(r.net.Pipes))
+	tw.Flush()
+	p("%s\n", t.String())
+}
+
+func (r *result) summariseSolve(p func(string, ...any)) {
+	s := r.cfg.system()
+	sol := r.sol
+	p("Peak hour (%.2f × average day), Global Gradient Algorithm\n", r.cfg.Demands.PeakHourFactor)
+	p("  converged in %d iterations: relative flow change %.1e, largest head-balance residual %.1e %s\n",
+		sol.Iterations, sol.RelativeFlowChange, s.Head(sol.MaxHeadResidual), s.LengthLabel())
+	p("  mass balance: sources supply %.2f %s, demand %.2f %s, largest node imbalance %.1e %s\n",
+		s.Flow(sol.Supply), s.FlowLabel(), s.Flow(sol.Demand), s.FlowLabel(), s.Flow(sol.MaxContinuityResidual), s.FlowLabel())
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i, n := range r.net.Nodes {
+		if n.Fixed || math.IsNaN(float64(sol.Head[i])) {
+			continue
+		}
+		v := s.Pressure(hydraulics.NodePressure(n, sol.Head[i]))
+		lo, hi = math.Min(lo, v), math.Max(hi, v)
+	}
+	if len(sol.Unsupplied) > 0 {
+		p("  %d nodes are in parts of the network no source reaches (see problems.csv)\n", len(sol.Unsupplied))
+	}
+	p("  junction pressure %.1f to %.1f %s; %d junctions below %.1f %s\n",
+		lo, hi, s.PressureLabel(), len(r.lowNodes), s.Pressure(r.limits.MinPressure), s.PressureLabel())
+	var slope, vel, def int
+	var deficit hydraulics.Flow
+	for i, sc := range r.scores {
+		if !sc.Scored {
+			continue
+		}
+		c := r.checks[r.netIndex[i]]
+		if c.OverSlope {
+			slope++
+		}
+		if c.OverVelocity {
+			vel++
+		}
+		if c.Deficit > 0 {
+			def++
+			deficit += c.Deficit
+		}
+	}
+	p("  %d pipes exceed %.1f %s, %d exceed %.1f %s; %d carry more than their capacity (deficits total %.0f %s)\n\n",
+		slope, s.UnitHeadLoss(r.limits.MaxSlope), s.UnitHeadLossLabel(), vel, s.Velocity(r.limits.MaxVelocity), s.VelocityLabel(),
+		def, s.Flow(deficit), s.FlowLabel())
+}
+
+// summariseTop prints the ten highest-ranked pipes.
+func (r *result) summariseTop(b *strings.Builder) {
+	s := r.cfg.system()
+	var top []scoring.Result
+	for _, sc := range r.scores {
+		if sc.Scored && sc.Rank <= 10 {
+			top = append(top, sc)
+		}
+	}
+	slices.SortFunc(top, func(a, b scoring.Result) int { return a.Rank - b.Rank })
+	fmt.Fprintf(b, "Top ten\n")
+	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+	fmt.Fprintf(tw, "  rank\tpipe\tdiameter %s\tC\thead loss %s\tdeficit %s\tscore\treasons\n",
+		s.DiameterLabel(), s.UnitHeadLossLabel(), s.FlowLabel())
+	for _, sc := range top {
+		p := r.pipes[sc.Index]
+		c := r.checks[r.netIndex[sc.Index]]
+		fmt.Fprintf(tw, "  %d\t%s\t%.0f\t%.0f\t%.1f\t%.0f\t%.1f\t%s\n", sc.Rank, p.ID, s.Diameter(p.Diameter),
+			r.cFactor[sc.Index], s.UnitHeadLoss(c.Slope), s.Flow(c.Deficit), sc.Score, sc.Reasons)
+	}
+	tw.Flush()
+}
