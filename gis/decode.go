@@ -27,11 +27,11 @@ type rawFeature struct {
 	Properties map[string]any  `json:"properties"`
 }
 
-// readCollection reads a GeoJSON FeatureCollection (or a bare Feature) from
+// ReadCollection reads a GeoJSON FeatureCollection (or a bare Feature) from
 // path. Numbers in ids and properties are kept as json.Number, so an id 1
 // reads back as "1" and 9007199254740993 stays exact. key is the config
 // section ("pipes", "sources", …) named in the error messages.
-func readCollection(path, key string) (*geojson.FeatureCollection, error) {
+func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 	file := filepath.Base(path)
 	f, err := os.Open(path)
 	if err != nil {

@@ -54,7 +54,7 @@ var openStatus = []string{"open", "opened", "active", "in service", "in_service"
 
 // ReadPipes reads a GeoJSON pipe layer; see [PipesFromCollection].
 func ReadPipes(path string, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
-	fc, err := readCollection(path, "pipes")
+	fc, err := ReadCollection(path, "pipes")
 	if err != nil {
 		return nil, nil, err
 	}

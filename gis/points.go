@@ -46,7 +46,7 @@ type pointKind struct {
 
 // ReadSources reads a GeoJSON source layer; see [SourcesFromCollection].
 func ReadSources(path string, s SourceSchema) ([]Point, []Problem, error) {
-	fc, err := readCollection(path, "sources")
+	fc, err := ReadCollection(path, "sources")
 	if err != nil {
 		return nil, nil, err
 	}
@@ -68,7 +68,7 @@ func SourcesFromCollection(file string, fc *geojson.FeatureCollection, s SourceS
 
 // ReadDemands reads a GeoJSON demand layer; see [DemandsFromCollection].
 func ReadDemands(path string, s DemandSchema) ([]Point, []Problem, error) {
-	fc, err := readCollection(path, "demands")
+	fc, err := ReadCollection(path, "demands")
 	if err != nil {
 		return nil, nil, err
 	}
@@ -95,7 +95,7 @@ func DemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandS
 
 // ReadElevations reads a GeoJSON elevation-point layer; see [ElevationsFromCollection].
 func ReadElevations(path string, s ElevationSchema) ([]Point, []Problem, error) {
-	fc, err := readCollection(path, "elevations")
+	fc, err := ReadCollection(path, "elevations")
 	if err != nil {
 		return nil, nil, err
 	}

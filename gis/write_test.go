@@ -210,7 +210,7 @@ func TestWriteFileAtomic(t *testing.T) {
 	}
 }
 
-// WriteCollection → readCollection keeps coordinates and numbers exactly.
+// WriteCollection → ReadCollection keeps coordinates and numbers exactly.
 func TestWriteCollectionRoundTrip(t *testing.T) {
 	text := `{"type":"FeatureCollection","name":"demo","features":[
 {"type":"Feature","id":9007199254740993,"properties":{"DIAM_IN":8,"C":"1.10","LEN":0.1},"geometry":{"type":"LineString","coordinates":[[-97.12345678901234,35.1],[-97.2,35.000000000000004]]}},
@@ -220,7 +220,7 @@ func TestWriteCollectionRoundTrip(t *testing.T) {
 	if err := WriteCollection(path, fc); err != nil {
 		t.Fatal(err)
 	}
-	back, err := readCollection(path, "pipes")
+	back, err := ReadCollection(path, "pipes")
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -170,10 +170,6 @@ func (r *result) nodeLayer() *gis.Layer {
 	for _, sp := range r.supplies {
 		sourceOf[sp.Node] = r.sources[sp.Source].ID
 	}
-	low := make(map[int]bool, len(r.lowNodes))
-	for _, n := range r.lowNodes {
-		low[n] = true
-	}
 	for i, n := range r.net.Nodes {
 		kind, factor := "junction", r.cfg.Demands.PeakHourFactor
 		if n.Fixed {
@@ -184,7 +180,7 @@ func (r *result) nodeLayer() *gis.Layer {
 			head = s.Head(h)
 			pres = s.Pressure(hydraulics.NodePressure(n, h))
 			below = "no"
-			if low[i] {
+			if r.belowMin[i] {
 				below = "yes"
 			}
 		}

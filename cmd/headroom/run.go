@@ -80,7 +80,8 @@ type result struct {
 	cBasis     []string
 	sol        *hydraulics.Solution
 	checks     []hydraulics.PipeCheck
-	lowNodes   []int
+	lowNodes   []int  // junctions below the pressure criterion, ascending
+	belowMin   []bool // per node: in lowNodes
 	scores     []scoring.Result
 	problems   []gis.Problem
 	limits     hydraulics.Limits
@@ -139,6 +140,10 @@ func analyse(in *inputs) (*result, error) {
 	r.noteUnsupplied()
 	r.checks = hydraulics.CheckPipes(r.net, sol, r.limits)
 	r.lowNodes = hydraulics.LowPressure(r.net, sol, r.limits)
+	r.belowMin = make([]bool, len(r.net.Nodes))
+	for _, n := range r.lowNodes {
+		r.belowMin[n] = true
+	}
 	r.noteFormulaRange()
 
 	scores, err := scoring.Rank(r.scoringInput(), cfg.scoringConfig(), r.limits)
@@ -149,48 +154,59 @@ func analyse(in *inputs) (*result, error) {
 	return r, nil
 }
 
-// readLayers reads the four layers, from files or from memory.
+// readLayers reads the four layers, from files or, for the built-in demo,
+// from the collections already in memory; either way the same code maps
+// their fields.
 func readLayers(in *inputs, r *result) error {
 	cfg := in.cfg
-	var probs []gis.Problem
-	var err error
-	name := func(p string) string { return filepath.Base(p) }
-	if in.pipes != nil {
-		r.pipes, probs, err = gis.PipesFromCollection(name(cfg.Pipes.Path), in.pipes, cfg.pipeSchema(), cfg.AnalysisYear)
-	} else {
-		r.pipes, probs, err = gis.ReadPipes(cfg.path(cfg.Pipes.Path), cfg.pipeSchema(), cfg.AnalysisYear)
+	load := func(mem *geojson.FeatureCollection, path, key string) (*geojson.FeatureCollection, string, error) {
+		if mem != nil {
+			return mem, filepath.Base(path), nil
+		}
+		fc, err := gis.ReadCollection(cfg.path(path), key)
+		return fc, filepath.Base(path), err
+	}
+	keep := func(probs []gis.Problem, err error) error {
+		r.problems = append(r.problems, probs...)
+		return err
+	}
+	fc, name, err := load(in.pipes, cfg.Pipes.Path, "pipes")
+	if err == nil {
+		var probs []gis.Problem
+		r.pipes, probs, err = gis.PipesFromCollection(name, fc, cfg.pipeSchema(), cfg.AnalysisYear)
+		err = keep(probs, err)
 	}
 	if err != nil {
 		return err
 	}
-	r.problems = append(r.problems, probs...)
-	if in.sources != nil {
-		r.sources, probs, err = gis.SourcesFromCollection(name(cfg.Sources.Path), in.sources, cfg.sourceSchema())
-	} else {
-		r.sources, probs, err = gis.ReadSources(cfg.path(cfg.Sources.Path), cfg.sourceSchema())
+	points := []struct {
+		mem  *geojson.FeatureCollection
+		path string
+		key  string
+		dst  *[]gis.Point
+		read func(string, *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error)
+	}{
+		{in.sources, cfg.Sources.Path, "sources", &r.sources, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
+			return gis.SourcesFromCollection(n, fc, cfg.sourceSchema())
+		}},
+		{in.demands, cfg.Demands.Path, "demands", &r.demands, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
+			return gis.DemandsFromCollection(n, fc, cfg.demandSchema())
+		}},
+		{in.elevations, cfg.Elevations.Path, "elevations", &r.elevations, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
+			return gis.ElevationsFromCollection(n, fc, cfg.elevationSchema())
+		}},
 	}
-	if err != nil {
-		return err
+	for _, l := range points {
+		fc, name, err := load(l.mem, l.path, l.key)
+		if err != nil {
+			return err
+		}
+		var probs []gis.Problem
+		*l.dst, probs, err = l.read(name, fc)
+		if err := keep(probs, err); err != nil {
+			return err
+		}
 	}
-	r.problems = append(r.problems, probs...)
-	if in.demands != nil {
-		r.demands, probs, err = gis.DemandsFromCollection(name(cfg.Demands.Path), in.demands, cfg.demandSchema())
-	} else {
-		r.demands, probs, err = gis.ReadDemands(cfg.path(cfg.Demands.Path), cfg.demandSchema())
-	}
-	if err != nil {
-		return err
-	}
-	r.problems = append(r.problems, probs...)
-	if in.elevations != nil {
-		r.elevations, probs, err = gis.ElevationsFromCollection(name(cfg.Elevations.Path), in.elevations, cfg.elevationSchema())
-	} else {
-		r.elevations, probs, err = gis.ReadElevations(cfg.path(cfg.Elevations.Path), cfg.elevationSchema())
-	}
-	if err != nil {
-		return err
-	}
-	r.problems = append(r.problems, probs...)
 	return nil
 }
 
@@ -272,10 +288,6 @@ func (r *result) unsupplied(j int) bool {
 
 // scoringInput describes each input pipe to the scorer.
 func (r *result) scoringInput() []scoring.Pipe {
-	low := make(map[int]bool, len(r.lowNodes))
-	for _, n := range r.lowNodes {
-		low[n] = true
-	}
 	in := make([]scoring.Pipe, len(r.pipes))
 	for i, p := range r.pipes {
 		sp := scoring.Pipe{Index: i, ID: p.ID, C: r.cFactor[i], Diameter: p.Diameter}
@@ -293,7 +305,7 @@ func (r *result) scoringInput() []scoring.Pipe {
 			sp.Scorable = true
 			sp.Check = r.checks[j]
 			np := r.net.Pipes[j]
-			sp.LowPressure = low[np.From] || low[np.To]
+			sp.LowPressure = r.belowMin[np.From] || r.belowMin[np.To]
 		}
 		in[i] = sp
 	}

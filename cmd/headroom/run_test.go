@@ -174,27 +174,19 @@ func TestEveryPipeAccountedFor(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var fc struct {
-		Features []struct {
-			Properties map[string]any `json:"properties"`
-		} `json:"features"`
-	}
-	b, _ := os.ReadFile(filepath.Join(dir, "pipes.geojson"))
-	if err := json.Unmarshal(b, &fc); err != nil {
-		t.Fatal(err)
-	}
-	if len(fc.Features) != len(in.pipes.Features) {
-		t.Fatalf("pipes.geojson has %d features, input has %d", len(fc.Features), len(in.pipes.Features))
+	pipes := readGeoJSONProperties(t, filepath.Join(dir, "pipes.geojson"))
+	if len(pipes) != len(in.pipes.Features) {
+		t.Fatalf("pipes.geojson has %d features, input has %d", len(pipes), len(in.pipes.Features))
 	}
 	var scored int
-	for i, f := range fc.Features {
-		if f.Properties["feature"] != float64(i+1) {
-			t.Fatalf("feature %d out of order: %v", i+1, f.Properties["feature"])
+	for i, p := range pipes {
+		if p["feature"] != float64(i+1) {
+			t.Fatalf("feature %d out of order: %v", i+1, p["feature"])
 		}
-		if f.Properties["rank"] != nil {
+		if p["rank"] != nil {
 			scored++
-		} else if f.Properties["reasons"] == "" || f.Properties["reasons"] == nil {
-			t.Errorf("unscored pipe %v has no reason", f.Properties["pipe_id"])
+		} else if p["reasons"] == "" || p["reasons"] == nil {
+			t.Errorf("unscored pipe %v has no reason", p["pipe_id"])
 		}
 	}
 	rows := readCSV(t, filepath.Join(dir, "ranked.csv"))
