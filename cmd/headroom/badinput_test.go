@@ -210,3 +210,26 @@ func TestOutputsNeverOverwriteInputs(t *testing.T) {
 		t.Error("the input pipe layer was changed")
 	}
 }
+
+// A solve that does not converge is an error and writes nothing
+// (DESIGN.md: refuse to pretend; DOMAIN.md §6.4: never emit results from
+// a failed solve).
+func TestNoConvergenceWritesNothing(t *testing.T) {
+	dir := writeFixture(t, func(n, s string) string {
+		if n == "headroom.toml" {
+			return s + "[solver]\nmax_iterations = 1\n"
+		}
+		return s
+	})
+	out := filepath.Join(t.TempDir(), "out")
+	code, stdout, stderr := runHeadroom(t, "run", "--config", filepath.Join(dir, "headroom.toml"), "--out", out)
+	if code != exitError || !strings.Contains(stderr, "no results were written") {
+		t.Errorf("exit %d, stderr %q; want a convergence error", code, stderr)
+	}
+	if stdout != "" {
+		t.Errorf("a failed run printed a summary:\n%s", stdout)
+	}
+	if entries, _ := os.ReadDir(out); len(entries) > 0 {
+		t.Errorf("a failed run wrote %d files", len(entries))
+	}
+}

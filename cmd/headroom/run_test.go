@@ -319,3 +319,55 @@ func readGeoJSONProperties(t *testing.T, path string) []map[string]any {
 	}
 	return props
 }
+
+// units = "si" writes SI column names and the same results converted:
+// 1 gpm = 0.06309020 L/s and 1 in = 25.4 mm (DOMAIN.md §3.7, exact
+// definitions); unit head loss is the same number in ft/kft and m/km.
+func TestSIRunWritesSIColumns(t *testing.T) {
+	us := builtInRun(t)
+	demo, out := t.TempDir(), t.TempDir()
+	if code, _, stderr := runHeadroom(t, "demo", "--out", demo); code != exitOK {
+		t.Fatal(stderr)
+	}
+	cfgPath := filepath.Join(demo, demoConfigName)
+	text, _ := os.ReadFile(cfgPath)
+	if err := os.WriteFile(cfgPath, bytes.Replace(text, []byte(`units = "us"`), []byte(`units = "si"`), 1), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if code, _, stderr := runHeadroom(t, "run", "--config", cfgPath, "--out", out); code != exitOK {
+		t.Fatal(stderr)
+	}
+	usRows, siRows := readCSV(t, filepath.Join(us, "ranked.csv")), readCSV(t, filepath.Join(out, "ranked.csv"))
+	col := func(rows [][]string, name string) int {
+		for i, c := range rows[0] {
+			if c == name {
+				return i
+			}
+		}
+		t.Fatalf("no column %q in %v", name, rows[0])
+		return -1
+	}
+	pairs := []struct {
+		us, si string
+		factor float64 // SI value per US value
+		tol    float64 // in SI units, from the written decimals
+	}{
+		{"flow_gpm", "flow_lps", 0.06309020, 0.006},
+		{"diameter_in", "diameter_mm", 25.4, 0.2},
+		{"headloss_ft_per_kft", "headloss_m_per_km", 1, 0.0011},
+	}
+	for _, p := range pairs {
+		cu, cs := col(usRows, p.us), col(siRows, p.si)
+		for k := 1; k < len(usRows) && k <= 50; k++ {
+			u, _ := strconv.ParseFloat(usRows[k][cu], 64)
+			s, _ := strconv.ParseFloat(siRows[k][cs], 64)
+			if math.Abs(u*p.factor-s) > p.tol {
+				t.Errorf("row %d: %s %v → %s %v, want %v", k, p.us, u, p.si, s, u*p.factor)
+			}
+		}
+	}
+	nodes := readGeoJSONProperties(t, filepath.Join(out, "nodes.geojson"))
+	if _, ok := nodes[0]["pressure_kpa"]; !ok {
+		t.Errorf("nodes.geojson lacks pressure_kpa: %v", nodes[0])
+	}
+}

@@ -129,11 +129,15 @@ func (r *result) summariseTop(b *strings.Builder) {
 	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
 	fmt.Fprintf(tw, "  rank\tpipe\tdiameter %s\tC\thead loss %s\tdeficit %s\tscore\treasons\n",
 		s.DiameterLabel(), s.UnitHeadLossLabel(), s.FlowLabel())
+	flowDigits := 0 // whole gpm; L/s to one decimal
+	if s == hydraulics.SI {
+		flowDigits = 1
+	}
 	for _, sc := range top {
 		p := r.pipes[sc.Index]
 		c := r.checks[r.netIndex[sc.Index]]
-		fmt.Fprintf(tw, "  %d\t%s\t%.0f\t%.0f\t%.1f\t%.0f\t%.1f\t%s\n", sc.Rank, p.ID, s.Diameter(p.Diameter),
-			r.cFactor[sc.Index], s.UnitHeadLoss(c.Slope), s.Flow(c.Deficit), sc.Score, sc.Reasons)
+		fmt.Fprintf(tw, "  %d\t%s\t%.0f\t%.0f\t%.1f\t%.*f\t%.1f\t%s\n", sc.Rank, p.ID, s.Diameter(p.Diameter),
+			r.cFactor[sc.Index], s.UnitHeadLoss(c.Slope), flowDigits, s.Flow(c.Deficit), sc.Score, sc.Reasons)
 	}
 	tw.Flush()
 }
