@@ -132,7 +132,7 @@ func analyse(in *inputs) (*result, error) {
 	if err != nil {
 		var nc *hydraulics.NotConvergedError
 		if errors.As(err, &nc) {
-			return nil, fmt.Errorf("peak-hour solve: %w; no results were written. Check the worst pipe's diameter, length and C, closed pipes that split the network, and source grades", err)
+			return nil, r.notConverged(nc)
 		}
 		return nil, fmt.Errorf("peak-hour solve: %w", err)
 	}
@@ -241,6 +241,25 @@ func agedC(cfg *Config, r *result) ([]float64, []string) {
 		basis[i] = fmt.Sprintf("%s %s %.0f yr", how, curve.Material, math.Max(age, 0))
 	}
 	return c, basis
+}
+
+// notConverged explains a failed solve in the run's units, naming the pipe
+// with the largest head-balance residual by its id and feature.
+func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
+	s := r.cfg.system()
+	where := ""
+	if nc.Pipe >= 0 && nc.Pipe < len(r.net.Pipes) {
+		where = " at pipe " + r.net.Pipes[nc.Pipe].ID
+		for i, j := range r.netIndex {
+			if j == nc.Pipe {
+				where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
+				break
+			}
+		}
+	}
+	return fmt.Errorf("the peak-hour solve did not converge after %d iterations (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
+		"Raise solver.max_iterations, or check that pipe's diameter, length and C, closed pipes that split the network, and the source grades",
+		nc.Iterations, nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
 }
 
 // noteUnsupplied lists, per pipe, the pipes in parts of the network that no
