@@ -222,17 +222,7 @@ func TestSolveReferenceNetwork(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// DOMAIN.md §6.7: assert ±0.02 ft and ±0.05 gpm.
-	for i, want := range referenceHeadsFt {
-		if got := sol.Head[i].Feet(); math.Abs(got-want) > 0.02 {
-			t.Errorf("H%s = %.4f ft, want %.3f ± 0.02", net.Nodes[i].ID, got, want)
-		}
-	}
-	for j, want := range referenceFlowGPM {
-		if got := sol.Flow[j].GPM(); math.Abs(got-want) > 0.05 {
-			t.Errorf("Q(%s) = %.4f gpm, want %.3f ± 0.05", net.Pipes[j].ID, got, want)
-		}
-	}
+	checkReference(t, net, sol)
 	checkBalance(t, sol, 1e-9)
 	if math.Abs(sol.Demand.GPM()-1000) > 1e-9 {
 		t.Errorf("demand %.9f gpm, want 1000", sol.Demand.GPM())
@@ -410,17 +400,8 @@ func TestSolveUnsuppliedComponent(t *testing.T) {
 			t.Errorf("flow in %s is %v, want 0", net.Pipes[j].ID, sol.Flow[j])
 		}
 	}
-	// The supplied part is the reference network (DOMAIN.md §6.7).
-	for i, want := range referenceHeadsFt {
-		if got := sol.Head[i].Feet(); math.Abs(got-want) > 0.02 {
-			t.Errorf("H%s = %.4f ft, want %.3f ± 0.02", net.Nodes[i].ID, got, want)
-		}
-	}
-	for j, want := range referenceFlowGPM {
-		if got := sol.Flow[j].GPM(); math.Abs(got-want) > 0.05 {
-			t.Errorf("Q(%s) = %.4f gpm, want %.3f ± 0.05", net.Pipes[j].ID, got, want)
-		}
-	}
+	// The supplied part is the reference network.
+	checkReference(t, net, sol)
 	// Unsupplied demand is not counted.
 	if math.Abs(sol.Demand.GPM()-1000) > 1e-9 {
 		t.Errorf("demand %.6f gpm, want 1000 (unsupplied excluded)", sol.Demand.GPM())
@@ -637,4 +618,21 @@ func TestSolveStiffShortPipes(t *testing.T) {
 		}
 	}
 	t.Logf("stiff grid: %d iterations", sol.Iterations)
+}
+
+// checkReference compares the first nodes and pipes of sol with the
+// reference network's heads and flows: DOMAIN.md §6.7 and §9 item 13 assert
+// ±0.02 ft and ±0.05 gpm.
+func checkReference(t *testing.T, net *Network, sol *Solution) {
+	t.Helper()
+	for i, want := range referenceHeadsFt {
+		if got := sol.Head[i].Feet(); math.Abs(got-want) > 0.02 {
+			t.Errorf("H%s = %.4f ft, want %.3f ± 0.02", net.Nodes[i].ID, got, want)
+		}
+	}
+	for j, want := range referenceFlowGPM {
+		if got := sol.Flow[j].GPM(); math.Abs(got-want) > 0.05 {
+			t.Errorf("Q(%s) = %.4f gpm, want %.3f ± 0.05", net.Pipes[j].ID, got, want)
+		}
+	}
 }
