@@ -124,12 +124,13 @@ func TestNewNetwork(t *testing.T) {
 	topo, pipes := lineTopology(t)
 	pipes = append(pipes, Pipe{Index: 4, ID: "X", Usable: false})
 	topo.Ends = append(topo.Ends, [2]int{-1, -1})
+	topo.Parts = append(topo.Parts, nil)
 	pipes[1].Closed = true
 	pipes[2].ID = ""
 	sup := []Supply{{Node: 0, Source: 0, Grade: 50}}
 	demand := []hydraulics.Flow{0, 1e-3, 2e-3, 3e-3}
 	elev := []hydraulics.Length{10, 11, 12, 13}
-	net, idx := NewNetwork(pipes, topo, sup, demand, elev, []float64{100, 110, 120, 130})
+	net := NewNetwork(pipes, topo, sup, demand, elev, []float64{100, 110, 120, 130})
 	if len(net.Nodes) != 4 || len(net.Pipes) != 3 {
 		t.Fatalf("%d nodes, %d pipes", len(net.Nodes), len(net.Pipes))
 	}
@@ -137,8 +138,8 @@ func TestNewNetwork(t *testing.T) {
 		net.Nodes[3].Elevation != 13 || net.Nodes[3].ID != "J4" {
 		t.Errorf("nodes = %+v", net.Nodes)
 	}
-	if idx[0] != 0 || idx[1] != 1 || idx[2] != 2 || idx[3] != -1 {
-		t.Errorf("index %v", idx)
+	if idx := topo.Parts; len(idx[0]) != 1 || idx[0][0] != 0 || idx[1][0] != 1 || idx[2][0] != 2 || idx[3] != nil {
+		t.Errorf("parts %v", idx)
 	}
 	p := net.Pipes[1]
 	if p.ID != "B" || p.From != 1 || p.To != 2 || !p.Closed || p.C != 110 || p.Diameter != 8*hydraulics.Inch ||

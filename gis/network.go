@@ -9,22 +9,25 @@ import (
 
 // NewNetwork assembles the hydraulics network. Nodes are t.Nodes in order,
 // with elevation[k] and demand[k] (either slice may be nil: zero) and the
-// planar X, Y; a node with a Supply is fixed at its grade. Every pipe with
-// both ends in t becomes a network pipe, in input order, with its Length,
-// Diameter, Closed flag and c[i], the Hazen-Williams C in use. A pipe
-// without an id is named "#<Index>". It returns, per input pipe, the index
-// in net.Pipes or -1.
+// planar X, Y; a node with a Supply is fixed at its grade. Each of t.Links
+// becomes one network pipe, in Links order (so net.Pipes[j] is t.Links[j]
+// and t.Parts[i] lists the network pipes of input pipe i), with the link's
+// Length and the input pipe's Diameter, Closed flag and c[i], the
+// Hazen-Williams C in use. Its ID is the pipe's id for an unsplit pipe and
+// "<id>/1", "<id>/2", … along the pipe for the parts of a split one; a pipe
+// without an id is named "#<Index>".
 //
-// The slices must match: len(c) and len(t.Ends) == len(pipes), demand and
-// elevation nil or len(t.Nodes); a mismatch is a bug of the caller and panics.
-func NewNetwork(pipes []Pipe, t *Topology, supplies []Supply, demand []hydraulics.Flow, elevation []hydraulics.Length, c []float64) (*hydraulics.Network, []int) {
-	if len(c) != len(pipes) || len(t.Ends) != len(pipes) {
-		panic(fmt.Sprintf("gis: NewNetwork: %d pipes, %d ends, %d C values", len(pipes), len(t.Ends), len(c)))
+// The slices must match: len(c), len(t.Ends) and len(t.Parts) == len(pipes),
+// demand and elevation nil or len(t.Nodes), links within range; a mismatch is
+// a bug of the caller and panics.
+func NewNetwork(pipes []Pipe, t *Topology, supplies []Supply, demand []hydraulics.Flow, elevation []hydraulics.Length, c []float64) *hydraulics.Network {
+	if len(c) != len(pipes) || len(t.Ends) != len(pipes) || len(t.Parts) != len(pipes) {
+		panic(fmt.Sprintf("gis: NewNetwork: %d pipes, %d ends, %d part lists, %d C values", len(pipes), len(t.Ends), len(t.Parts), len(c)))
 	}
 	if (demand != nil && len(demand) != len(t.Nodes)) || (elevation != nil && len(elevation) != len(t.Nodes)) {
 		panic(fmt.Sprintf("gis: NewNetwork: %d nodes, %d demands, %d elevations", len(t.Nodes), len(demand), len(elevation)))
 	}
-	net := &hydraulics.Network{Nodes: make([]hydraulics.Node, len(t.Nodes))}
+	net := &hydraulics.Network{Nodes: make([]hydraulics.Node, len(t.Nodes)), Pipes: make([]hydraulics.Pipe, 0, len(t.Links))}
 	for k, n := range t.Nodes {
 		node := hydraulics.Node{ID: n.ID, X: n.X, Y: n.Y}
 		if demand != nil {
@@ -39,20 +42,22 @@ func NewNetwork(pipes []Pipe, t *Topology, supplies []Supply, demand []hydraulic
 		net.Nodes[s.Node].Fixed = true
 		net.Nodes[s.Node].Grade = s.Grade
 	}
-	index := make([]int, len(pipes))
-	for i, p := range pipes {
-		e := t.Ends[i]
-		if !p.Usable || e[0] < 0 || e[1] < 0 {
-			index[i] = -1
-			continue
+	part := make([]int, len(pipes)) // parts of each pipe named so far
+	for j, l := range t.Links {
+		if l.Pipe < 0 || l.Pipe >= len(pipes) || l.From < 0 || l.From >= len(t.Nodes) || l.To < 0 || l.To >= len(t.Nodes) {
+			panic(fmt.Sprintf("gis: NewNetwork: link %d (%+v) out of range", j, l))
 		}
+		p := pipes[l.Pipe]
 		id := p.ID
 		if id == "" {
 			id = "#" + strconv.Itoa(p.Index)
 		}
-		index[i] = len(net.Pipes)
-		net.Pipes = append(net.Pipes, hydraulics.Pipe{ID: id, From: e[0], To: e[1],
-			Length: p.Length, Diameter: p.Diameter, C: c[i], Closed: p.Closed})
+		part[l.Pipe]++
+		if len(t.Parts[l.Pipe]) > 1 {
+			id += "/" + strconv.Itoa(part[l.Pipe])
+		}
+		net.Pipes = append(net.Pipes, hydraulics.Pipe{ID: id, From: l.From, To: l.To,
+			Length: l.Length, Diameter: p.Diameter, C: c[l.Pipe], Closed: p.Closed})
 	}
-	return net, index
+	return net
 }

@@ -31,9 +31,13 @@ type Pipe struct {
 	MeasuredC   float64 // 0 = none
 	Closed      bool
 	Zone        string
-	Length      hydraulics.Length // geodesic on WGS84, or the mapped length field
-	Usable      bool              // false: left out of the network; Reason says why
-	Reason      string
+	Length      hydraulics.Length // geodesic on WGS84, grid length in a projected layer, or the mapped length field
+	// LengthSource says where Length came from: LengthGeodesic,
+	// LengthGrid or LengthField ("" for a pipe with no usable geometry
+	// and no length field).
+	LengthSource string
+	Usable       bool // false: left out of the network; Reason says why
+	Reason       string
 }
 
 // PartGap is the largest gap between the end of one part of a
@@ -369,9 +373,16 @@ func (r *pipeReader) status(p *Pipe, f *geojson.Feature) {
 		"pipe treated as open; if the value means closed, add it to the config key pipes.fields.closed_values")
 }
 
+// Where a pipe's Length came from.
+const (
+	LengthGeodesic = "geodesic" // on the WGS84 ellipsoid, from lon/lat geometry
+	LengthGrid     = "grid"     // planar, in a projected layer's linear unit
+	LengthField    = "field"    // the mapped length attribute
+)
+
 func (r *pipeReader) length(p *Pipe, f *geojson.Feature) {
 	if p.Line != nil {
-		p.Length = GeodesicLength(p.Line)
+		p.Length, p.LengthSource = GeodesicLength(p.Line), LengthGeodesic
 	}
 	v, name, ok := lookup(f.Properties, r.s.Length)
 	if !ok {
@@ -386,7 +397,7 @@ func (r *pipeReader) length(p *Pipe, f *geojson.Feature) {
 	case x <= 0:
 		r.add(p, name, fmt.Sprintf("length %s is not > 0", fmtNum(x)), fix)
 	default:
-		p.Length = hydraulics.Length(x) * r.lUnit
+		p.Length, p.LengthSource = hydraulics.Length(x)*r.lUnit, LengthField
 	}
 }
 

@@ -44,32 +44,33 @@ func TestSnap(t *testing.T) {
 		pipes    []Pipe
 		nodes    int
 		ends     [][2]int
+		dangles  int      // nodes one link reaches, counted by hand from the drawing
 		problems []string // substrings, one per expected Problem, in order
 	}{
 		{"end within tolerance joins", []Pipe{
 			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.10, 0, 200, 0)},
-			3, [][2]int{{0, 1}, {1, 2}}, nil},
+			3, [][2]int{{0, 1}, {1, 2}}, 2, nil},
 		{"end beyond tolerance does not join", []Pipe{
 			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.20, 0, 200, 0)},
-			4, [][2]int{{0, 1}, {2, 3}}, []string{"possible unsnapped end: node J2"}},
+			4, [][2]int{{0, 1}, {2, 3}}, 4, []string{"near-miss: node J2"}},
 		{"far apart, nothing reported", []Pipe{
 			testPipe("A", 0, 0, 100, 0), testPipe("B", 102, 0, 200, 0)},
-			4, [][2]int{{0, 1}, {2, 3}}, nil},
-		{"T without a vertex does not snap", []Pipe{
+			4, [][2]int{{0, 1}, {2, 3}}, 4, nil},
+		{"T without a vertex splits the main", []Pipe{
 			testPipe("MAIN", 0, 0, 200, 0), testPipe("BRANCH", 100, 0, 100, 100)},
-			4, [][2]int{{0, 1}, {2, 3}}, []string{`from the middle of pipe "MAIN"`}},
+			4, [][2]int{{0, 1}, {2, 3}}, 3, nil},
 		{"T with split main snaps", []Pipe{
 			testPipe("M1", 0, 0, 100, 0), testPipe("M2", 100, 0, 200, 0), testPipe("BRANCH", 100, 0, 100, 100)},
-			4, [][2]int{{0, 1}, {1, 2}, {1, 3}}, nil},
+			4, [][2]int{{0, 1}, {1, 2}, {1, 3}}, 3, nil},
 		{"self-loop made unusable, no orphan node", []Pipe{
 			testPipe("LOOP", 0, 0, 50, 0, 50, 50, 0, 0.05), testPipe("A", 300, 0, 400, 0)},
-			2, [][2]int{{-1, -1}, {0, 1}}, []string{"both ends join one node"}},
+			2, [][2]int{{-1, -1}, {0, 1}}, 2, []string{"both ends join one node"}},
 		{"stub shorter than tolerance made unusable", []Pipe{
 			testPipe("A", 0, 0, 100, 0), testPipe("STUB", 100, 0, 100.1, 0)},
-			2, [][2]int{{0, 1}, {-1, -1}}, []string{"shorter than the snap tolerance"}},
+			2, [][2]int{{0, 1}, {-1, -1}}, 2, []string{"zero-length pipe"}},
 		{"nearest of two candidates within tolerance", []Pipe{ // C starts 0.12 m from J2, 0.08 m from J3
 			testPipe("A", 0, 0, 100, 0), testPipe("B", 100.2, 0, 200, 0), testPipe("C", 100.12, 0, 100.12, 80)},
-			5, [][2]int{{0, 1}, {2, 3}, {2, 4}}, []string{"possible unsnapped end: node J2"}},
+			5, [][2]int{{0, 1}, {2, 3}, {2, 4}}, 4, []string{"near-miss: node J2"}},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -80,6 +81,9 @@ func TestSnap(t *testing.T) {
 			}
 			if !reflect.DeepEqual(topo.Ends, tc.ends) {
 				t.Errorf("ends %v, want %v", topo.Ends, tc.ends)
+			}
+			if topo.Dangles != tc.dangles {
+				t.Errorf("got %d dangles, want %d", topo.Dangles, tc.dangles)
 			}
 			if len(probs) != len(tc.problems) {
 				t.Fatalf("got %d problems, want %d: %+v", len(probs), len(tc.problems), probs)

@@ -110,11 +110,11 @@ func (r *result) pipeLayer() *gis.Layer {
 			nil, nil, nil, nil, // sub-scores
 			sc.Reasons,
 		}
-		if j := r.netIndex[i]; j >= 0 {
-			np := r.net.Pipes[j]
-			vals[11], vals[12] = r.net.Nodes[np.From].ID, r.net.Nodes[np.To].ID
-			if !r.unsupplied(j) {
-				c := r.checks[j]
+		if len(r.parts[i]) > 0 {
+			e := r.topo.Ends[i]
+			vals[11], vals[12] = r.net.Nodes[e[0]].ID, r.net.Nodes[e[1]].ID
+			if !r.pipeUnsupplied(i) {
+				c := r.checks[r.governing(i)] // a split pipe reports its part with the largest friction slope
 				vals[13], vals[14], vals[15] = s.Flow(c.Flow), s.Velocity(c.Velocity), s.UnitHeadLoss(c.Slope)
 				vals[16], vals[17] = s.Flow(c.Capacity), s.Flow(c.Deficit)
 				if c.Required.Nominal > 0 {

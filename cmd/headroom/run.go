@@ -75,7 +75,7 @@ type result struct {
 	topo       *gis.Topology
 	supplies   []gis.Supply
 	net        *hydraulics.Network
-	netIndex   []int // per input pipe, its index in net.Pipes or -1
+	parts      [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
 	cFactor    []float64
 	cBasis     []string
 	sol        *hydraulics.Solution
@@ -122,7 +122,8 @@ func analyse(in *inputs) (*result, error) {
 	}
 
 	r.cFactor, r.cBasis = agedC(cfg, r)
-	r.net, r.netIndex = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
+	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
+	r.parts = topo.Parts
 
 	sol, err := hydraulics.Solve(r.net, &hydraulics.Options{
 		DemandFactor:  cfg.Demands.PeakHourFactor,
@@ -250,11 +251,8 @@ func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
 	where := ""
 	if nc.Pipe >= 0 && nc.Pipe < len(r.net.Pipes) {
 		where = " at pipe " + r.net.Pipes[nc.Pipe].ID
-		for i, j := range r.netIndex {
-			if j == nc.Pipe {
-				where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
-				break
-			}
+		if i := r.topo.Links[nc.Pipe].Pipe; i >= 0 && i < len(r.pipes) {
+			where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
 		}
 	}
 	return fmt.Errorf("the peak-hour solve did not converge after %d iterations (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
@@ -270,7 +268,7 @@ func (r *result) noteUnsupplied() {
 	}
 	file := filepath.Base(r.cfg.Pipes.Path)
 	for i, p := range r.pipes {
-		if j := r.netIndex[i]; j >= 0 && r.unsupplied(j) {
+		if r.pipeUnsupplied(i) {
 			r.problems = append(r.problems, gis.Problem{
 				File: file, Feature: p.Index, ID: p.ID, Field: "geometry",
 				What:   "no source reaches this pipe through open pipes",
@@ -285,11 +283,10 @@ func (r *result) noteUnsupplied() {
 func (r *result) noteFormulaRange() {
 	file := filepath.Base(r.cfg.Pipes.Path)
 	for i, p := range r.pipes {
-		j := r.netIndex[i]
-		if j < 0 || p.Closed || r.unsupplied(j) {
+		if len(r.parts[i]) == 0 || p.Closed || r.pipeUnsupplied(i) {
 			continue
 		}
-		if ok, why := hydraulics.HWValid(p.Diameter, r.checks[j].Velocity); !ok {
+		if ok, why := hydraulics.HWValid(p.Diameter, r.checks[r.governing(i)].Velocity); !ok {
 			r.problems = append(r.problems, gis.Problem{
 				File: file, Feature: p.Index, ID: p.ID, Field: r.cfg.Pipes.Fields.Diameter,
 				What:   why,
@@ -305,26 +302,61 @@ func (r *result) unsupplied(j int) bool {
 	return math.IsNaN(float64(r.sol.Head[p.From])) || math.IsNaN(float64(r.sol.Head[p.To]))
 }
 
+// pipeUnsupplied reports whether any part of input pipe i is unsupplied;
+// false for a pipe not in the network.
+func (r *result) pipeUnsupplied(i int) bool {
+	for _, j := range r.parts[i] {
+		if r.unsupplied(j) {
+			return true
+		}
+	}
+	return false
+}
+
+// governing returns the net pipe whose check stands for input pipe i: of
+// its parts (a pipe split where tees join it), the one with the largest
+// friction slope, the first of equals; -1 for a pipe not in the network.
+// The parts share diameter and C, so it is also the part with the largest
+// flow and velocity.
+func (r *result) governing(i int) int {
+	best := -1
+	for _, j := range r.parts[i] {
+		if best < 0 || math.Abs(r.checks[j].Slope) > math.Abs(r.checks[best].Slope) {
+			best = j
+		}
+	}
+	return best
+}
+
+// pipeLowPressure reports whether any node of any part of input pipe i is
+// below the pressure criterion.
+func (r *result) pipeLowPressure(i int) bool {
+	for _, j := range r.parts[i] {
+		if np := r.net.Pipes[j]; r.belowMin[np.From] || r.belowMin[np.To] {
+			return true
+		}
+	}
+	return false
+}
+
 // scoringInput describes each input pipe to the scorer.
 func (r *result) scoringInput() []scoring.Pipe {
 	in := make([]scoring.Pipe, len(r.pipes))
 	for i, p := range r.pipes {
 		sp := scoring.Pipe{Index: i, ID: p.ID, C: r.cFactor[i], Diameter: p.Diameter}
-		j := r.netIndex[i]
 		switch {
 		case !p.Usable:
 			sp.Reason = "not in the network: " + p.Reason
-		case j < 0:
+		case len(r.parts[i]) == 0:
 			sp.Reason = "not in the network"
 		case p.Closed:
 			sp.Reason = "closed: carries no flow"
-		case r.unsupplied(j):
+		case r.pipeUnsupplied(i):
 			sp.Reason = "no source reaches this pipe"
 		default:
 			sp.Scorable = true
-			sp.Check = r.checks[j]
-			np := r.net.Pipes[j]
-			sp.LowPressure = r.belowMin[np.From] || r.belowMin[np.To]
+			sp.Check = r.checks[r.governing(i)] // a split pipe is judged by its worst part
+			sp.LowPressure = r.pipeLowPressure(i)
 		}
 		in[i] = sp
 	}

@@ -66,7 +66,17 @@ func (r *result) summariseInputs(p func(string, ...any)) {
 	fmt.Fprintf(tw, "  %s\t%d sources, %d joined to the network\n", r.cfg.Sources.Path, len(r.sources), len(r.supplies))
 	fmt.Fprintf(tw, "  %s\t%d points, %.1f %s average day\n", r.cfg.Demands.Path, len(r.demands), s.Flow(add), s.FlowLabel())
 	fmt.Fprintf(tw, "  %s\t%d spot heights\n", r.cfg.Elevations.Path, len(r.elevations))
-	fmt.Fprintf(tw, "  %s\t%d nodes, %d pipes\n", "network", len(r.net.Nodes), len(r.net.Pipes))
+	inNet := 0
+	for _, parts := range r.parts {
+		if len(parts) > 0 {
+			inNet++
+		}
+	}
+	links := ""
+	if r.topo.Splits > 0 {
+		links = fmt.Sprintf(" as %d links (%d tees split a pipe)", len(r.net.Pipes), r.topo.Splits)
+	}
+	fmt.Fprintf(tw, "  %s\t%d nodes, %d pipes%s, %d dangling ends\n", "network", len(r.net.Nodes), inNet, links, r.topo.Dangles)
 	tw.Flush()
 	p("%s\n", t.String())
 }
@@ -98,7 +108,7 @@ func (r *result) summariseSolve(p func(string, ...any)) {
 		if !sc.Scored {
 			continue
 		}
-		c := r.checks[r.netIndex[i]]
+		c := r.checks[r.governing(i)]
 		if c.OverSlope {
 			slope++
 		}
@@ -135,7 +145,7 @@ func (r *result) summariseTop(b *strings.Builder) {
 	}
 	for _, sc := range top {
 		p := r.pipes[sc.Index]
-		c := r.checks[r.netIndex[sc.Index]]
+		c := r.checks[r.governing(sc.Index)]
 		fmt.Fprintf(tw, "  %d\t%s\t%.0f\t%.0f\t%.1f\t%.*f\t%.1f\t%s\n", sc.Rank, p.ID, s.Diameter(p.Diameter),
 			r.cFactor[sc.Index], s.UnitHeadLoss(c.Slope), flowDigits, s.Flow(c.Deficit), sc.Score, sc.Reasons)
 	}
