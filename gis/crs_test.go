@@ -313,25 +313,11 @@ func TestCRSWriteRoundTrip(t *testing.T) {
 	}
 }
 
-// crsRequireTool finds a GDAL/PROJ program, skipping the test without it
-// unless HEADROOM_REQUIRE_GDAL=1.
-func crsRequireTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("HEADROOM_REQUIRE_GDAL") == "1" {
-			t.Fatalf("%s not on PATH and HEADROOM_REQUIRE_GDAL=1", name)
-		}
-		t.Skipf("%s not on PATH; skipping the live GDAL/PROJ check", name)
-	}
-	return p
-}
-
 // TestCRSLiveWholeTable projects five points inside each table CRS's area of
 // use with our code and with `cs2cs -f %.6f EPSG:<base> EPSG:<code>` (the
 // installed PROJ), forward within 0.01 ft and inverse within 1e-9°.
 func TestCRSLiveWholeTable(t *testing.T) {
-	cs2cs := crsRequireTool(t, "cs2cs")
+	cs2cs := requireTool(t, "cs2cs")
 	if testing.Short() {
 		t.Skip("-short")
 	}
@@ -410,7 +396,7 @@ func crsLiveCheck(cs2cs string, e *crsEntry) (maxF, maxI float64, err error) {
 // TestCRSLiveGDALIdentifies gives our WKT1 and ESRI output to GDAL's
 // `gdalsrsinfo -e` (GDAL 3.6.2), which must name the same EPSG code.
 func TestCRSLiveGDALIdentifies(t *testing.T) {
-	gdalsrsinfo := crsRequireTool(t, "gdalsrsinfo")
+	gdalsrsinfo := requireTool(t, "gdalsrsinfo")
 	for _, code := range []int{2229, 2227, 2236, 2263, 26911, 32618, 32760, 6420, 6794, 4326, 4269} {
 		c, err := EPSG(code)
 		if err != nil {

@@ -39,20 +39,6 @@ const gpkgDir = "testdata/gpkg"
 // significant digits: 1e-6 in the layer's unit (ft or m).
 const gpkgCoordTol = 1e-6
 
-// gpkgTool returns the path of a command-line tool, skipping the test when
-// it is missing, or failing it when HEADROOM_REQUIRE_GDAL=1.
-func gpkgTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("HEADROOM_REQUIRE_GDAL") == "1" {
-			t.Fatalf("%s not found and HEADROOM_REQUIRE_GDAL=1: %v", name, err)
-		}
-		t.Skipf("%s not found; install gdal-bin/proj-bin to run this test", name)
-	}
-	return p
-}
-
 func gpkgClose(t *testing.T, got, want orb.Point, what string) {
 	t.Helper()
 	if math.Abs(got[0]-want[0]) > gpkgCoordTol || math.Abs(got[1]-want[1]) > gpkgCoordTol {
@@ -234,7 +220,7 @@ func TestGeoPackageTwoTables(t *testing.T) {
 // PROJ's cs2cs on the fixture's source lon/lat gives what the GeoPackage
 // holds, within 0.01 ft (issue 3: coordinates equal to PROJ's).
 func TestGeoPackageLiveCS2CS(t *testing.T) {
-	cs2cs := gpkgTool(t, "cs2cs")
+	cs2cs := requireTool(t, "cs2cs")
 	src, err := ReadCollection(filepath.Join(gpkgDir, "mains.geojson"), "")
 	if err != nil {
 		t.Fatal(err)
@@ -463,7 +449,7 @@ func TestGeoPackageLayout(t *testing.T) {
 // gpkgOgrinfo runs ogrinfo and returns its output.
 func gpkgOgrinfo(t *testing.T, args ...string) string {
 	t.Helper()
-	ogrinfo := gpkgTool(t, "ogrinfo")
+	ogrinfo := requireTool(t, "ogrinfo")
 	out, err := exec.Command(ogrinfo, args...).CombinedOutput()
 	if err != nil {
 		t.Fatalf("ogrinfo %v: %v\n%s", args, err, out)
@@ -472,7 +458,7 @@ func gpkgOgrinfo(t *testing.T, args ...string) string {
 }
 
 func TestGeoPackageLiveOgrinfo(t *testing.T) {
-	gpkgTool(t, "ogrinfo")
+	requireTool(t, "ogrinfo")
 	path := filepath.Join(t.TempDir(), "out.gpkg")
 	if err := WriteGeoPackage(path, gpkgSRS2229(t), gpkgTestLayers()...); err != nil {
 		t.Fatal(err)
@@ -499,7 +485,7 @@ func TestGeoPackageLiveOgrinfo(t *testing.T) {
 }
 
 func TestGeoPackageLiveSpatialFilter(t *testing.T) {
-	gpkgTool(t, "ogrinfo")
+	requireTool(t, "ogrinfo")
 	// A 10 × 10 grid of 100-ft east–west mains, 500 ft apart.
 	l := &Layer{Name: "grid", Columns: []Column{{Name: "k", Kind: Integer}}}
 	for i := range 10 {
@@ -559,7 +545,7 @@ func gpkgValidator(t *testing.T) (python, script string) {
 	}
 	python = "/usr/bin/python3" // the system Python, which has the osgeo module
 	if _, err := os.Stat(python); err != nil {
-		python = gpkgTool(t, "python3")
+		python = requireTool(t, "python3")
 	}
 	if script == "" {
 		if os.Getenv("HEADROOM_REQUIRE_GDAL") == "1" {

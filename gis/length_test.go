@@ -80,10 +80,7 @@ func TestGeodesicLengthPolyline(t *testing.T) {
 // TestGeodesicLengthLiveGeod compares ~50 seeded random segments of 10 m to
 // 5 km with PROJ's geod when it is installed.
 func TestGeodesicLengthLiveGeod(t *testing.T) {
-	path, err := exec.LookPath("geod")
-	if err != nil {
-		t.Skip("geod (PROJ) not on PATH")
-	}
+	path := requireTool(t, "geod")
 	rng := rand.New(rand.NewPCG(7, 35))
 	type seg struct{ p, q orb.Point }
 	var segs []seg

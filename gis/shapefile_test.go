@@ -740,24 +740,10 @@ func TestShapefileGoShpReadsOurs(t *testing.T) {
 	}
 }
 
-// shpRequireTool returns the path of a GDAL tool, or skips (fails when
-// HEADROOM_REQUIRE_GDAL=1).
-func shpRequireTool(t *testing.T, name string) string {
-	t.Helper()
-	p, err := exec.LookPath(name)
-	if err != nil {
-		if os.Getenv("HEADROOM_REQUIRE_GDAL") == "1" {
-			t.Fatalf("%s not found and HEADROOM_REQUIRE_GDAL=1", name)
-		}
-		t.Skipf("%s not found; install gdal-bin to run this test", name)
-	}
-	return p
-}
-
 // TestShapefileGDALReadsOurs opens our output with GDAL's ogrinfo: feature
 // count, fields and types, geometry type, a null geometry and null values.
 func TestShapefileGDALReadsOurs(t *testing.T) {
-	ogrinfo := shpRequireTool(t, "ogrinfo")
+	ogrinfo := requireTool(t, "ogrinfo")
 	path := filepath.Join(t.TempDir(), "ranked.shp")
 	if _, err := WriteShapefile(path, shpRoundTripLayer(), ""); err != nil {
 		t.Fatal(err)
@@ -858,7 +844,7 @@ func shpRepeatNames(prefix string, n int) []string {
 // TestShapefileLaunderGDAL lets GDAL launder 12 colliding names and
 // compares its .dbf names with ours (live ogr2ogr run).
 func TestShapefileLaunderGDAL(t *testing.T) {
-	ogr2ogr := shpRequireTool(t, "ogr2ogr")
+	ogr2ogr := requireTool(t, "ogr2ogr")
 	names := shpRepeatNames("install_year_", 12)
 	var props []string
 	for i, n := range names {

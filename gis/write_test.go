@@ -234,10 +234,7 @@ func TestWriteCollectionRoundTrip(t *testing.T) {
 
 // ogrinfo (GDAL) must read a written layer: feature count and a field name.
 func TestWriteGeoJSONOgrinfo(t *testing.T) {
-	ogr, err := exec.LookPath("ogrinfo")
-	if err != nil {
-		t.Skip("ogrinfo (GDAL) not on PATH")
-	}
+	ogr := requireTool(t, "ogrinfo")
 	path := filepath.Join(t.TempDir(), "pipes.geojson")
 	if err := WriteGeoJSON(path, testLayer()); err != nil {
 		t.Fatal(err)
