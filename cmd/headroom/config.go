@@ -33,6 +33,7 @@ type Config struct {
 	Weights      WeightsConfig  `toml:"weights"`
 	Scoring      ScoringConfig  `toml:"scoring"`
 	Aging        AgingConfig    `toml:"aging"`
+	Output       OutputConfig   `toml:"output"`
 
 	// dir is the folder relative paths are read from; file is the config's
 	// own name for messages ("built-in demo" when there is none).
@@ -42,6 +43,8 @@ type Config struct {
 // PipeLayer names the pipe layer and its fields.
 type PipeLayer struct {
 	Path   string     `toml:"path"`
+	Table  string     `toml:"table"`
+	CRS    string     `toml:"crs"`
 	Fields PipeFields `toml:"fields"`
 }
 
@@ -63,6 +66,8 @@ type PipeFields struct {
 // SourceLayer names the fixed-grade supply points.
 type SourceLayer struct {
 	Path   string       `toml:"path"`
+	Table  string       `toml:"table"`
+	CRS    string       `toml:"crs"`
 	Fields SourceFields `toml:"fields"`
 }
 
@@ -77,6 +82,8 @@ type SourceFields struct {
 // DemandLayer names the demand points and the peaking factor.
 type DemandLayer struct {
 	Path           string       `toml:"path"`
+	Table          string       `toml:"table"`
+	CRS            string       `toml:"crs"`
 	Fields         DemandFields `toml:"fields"`
 	PeakHourFactor float64      `toml:"peak_hour_factor"`
 	WarnDistanceFt *float64     `toml:"warn_distance_ft"`
@@ -93,6 +100,8 @@ type DemandFields struct {
 // ElevationLayer names the spot heights and the interpolation.
 type ElevationLayer struct {
 	Path       string          `toml:"path"`
+	Table      string          `toml:"table"`
+	CRS        string          `toml:"crs"`
 	Fields     ElevationFields `toml:"fields"`
 	Neighbours int             `toml:"neighbours"`
 	Power      float64         `toml:"power"`
@@ -155,6 +164,21 @@ type ScoringConfig struct {
 	DeficitGoodFraction  *float64 `toml:"deficit_good_fraction"`
 	DeficitPoorFraction  *float64 `toml:"deficit_poor_fraction"`
 }
+
+// OutputConfig chooses the formats of the annotated layers; ranked.csv and
+// problems.csv are always written.
+type OutputConfig struct {
+	Formats []string `toml:"formats"`
+}
+
+// Output formats of the pipe and node layers.
+const (
+	formatGeoJSON    = "geojson" // pipes.geojson, nodes.geojson: WGS84 lon/lat (RFC 7946)
+	formatGeoPackage = "gpkg"    // pipes.gpkg, nodes.gpkg: the pipe layer's coordinate system
+	formatShapefile  = "shp"     // pipes.shp, nodes.shp (+ .shx .dbf .prj .cpg) and fields.csv
+)
+
+var defaultFormats = []string{formatGeoJSON, formatGeoPackage}
 
 // AgingConfig is the C-factor table by material and age.
 type AgingConfig struct {
@@ -290,8 +314,42 @@ func (c *Config) validate() error {
 	if err := c.scoringConfig().Validate(); err != nil {
 		errs = append(errs, err)
 	}
+	if len(c.Output.Formats) == 0 {
+		c.Output.Formats = defaultFormats
+	}
+	for _, f := range c.Output.Formats {
+		if !slices.Contains([]string{formatGeoJSON, formatGeoPackage, formatShapefile}, f) {
+			errs = append(errs, fmt.Errorf("output.formats: %q is not one of \"geojson\", \"gpkg\", \"shp\"", f))
+		}
+	}
+	for _, l := range c.layers() {
+		if l.crs == "" {
+			continue
+		}
+		if _, err := gis.ParseCRS(l.crs); err != nil {
+			errs = append(errs, fmt.Errorf("%s.crs = %q: %w", l.key, l.crs, err))
+		}
+	}
 	return errors.Join(errs...)
 }
+
+// layerConfig is what every layer section has in common.
+type layerConfig struct {
+	key, path, table, crs string
+}
+
+// layers lists the four layer sections in reading order.
+func (c *Config) layers() []layerConfig {
+	return []layerConfig{
+		{"pipes", c.Pipes.Path, c.Pipes.Table, c.Pipes.CRS},
+		{"sources", c.Sources.Path, c.Sources.Table, c.Sources.CRS},
+		{"demands", c.Demands.Path, c.Demands.Table, c.Demands.CRS},
+		{"elevations", c.Elevations.Path, c.Elevations.Table, c.Elevations.CRS},
+	}
+}
+
+// wants reports whether the config asks for an output format.
+func (c *Config) wants(format string) bool { return slices.Contains(c.Output.Formats, format) }
 
 // system is the unit system users read and write.
 func (c *Config) system() hydraulics.System {

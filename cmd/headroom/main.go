@@ -8,6 +8,7 @@
 //	headroom run  [--config FILE] [--out DIR]   run a config, or the built-in demo town
 //	headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and config
 //	headroom init                               print a commented config template
+//	headroom inspect [--crs EPSG:N] LAYER...    describe layers before writing a config
 //
 // Results are planning-level screening, not a calibrated model; see the
 // README's cautions.
@@ -44,6 +45,8 @@ func headroomMain(args []string, stdout, stderr io.Writer) int {
 		err = demoCommand(args[1:], stdout, stderr)
 	case "init":
 		err = initCommand(args[1:], stdout, stderr)
+	case "inspect":
+		err = inspectCommand(args[1:], stdout, stderr)
 	case "help", "-h", "-help", "--help":
 		usage(stdout)
 		return exitOK
@@ -75,8 +78,11 @@ Commands:
   headroom run  [--config FILE] [--out DIR]       run a config (default: the built-in demo town)
   headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and a config that runs them
   headroom init                                   print a commented config template with every key
+  headroom inspect [--crs EPSG:N] [--table T] LAYER...
+                                                  describe layers (format, coordinate system, fields, topology)
 
-Outputs (in --out, default headroom-out): ranked.csv, pipes.geojson, nodes.geojson, problems.csv.
+Outputs (in --out, default headroom-out): ranked.csv, problems.csv, and the pipe and node layers
+as GeoJSON and GeoPackage (and shapefile when output.formats asks for it).
 Results are planning-level screening; see the cautions in the run summary and the README.
 `)
 }

@@ -6,40 +6,124 @@ import (
 	"math"
 	"path/filepath"
 	"slices"
+	"strings"
 
 	"headroom/gis"
 	"headroom/hydraulics"
 )
 
-// writeOutputs writes the four result files into dir, each atomically, and
-// returns their paths in the order written.
+// output is one file (or, for a shapefile, one set of files) to write.
+type output struct {
+	name  string
+	write func(path string) error
+}
+
+// writeOutputs writes the result files into dir, each atomically, and
+// returns their paths in the order written: ranked.csv, then the pipe and
+// node layers in each configured format, then problems.csv.
 func writeOutputs(dir string, r *result) ([]string, error) {
 	if err := prepareOutDir(dir); err != nil {
 		return nil, err
 	}
-	pipes := r.pipeLayer()
-	files := []struct {
-		name  string
-		write func(string, *gis.Layer) error
-		layer *gis.Layer
-	}{
-		{"ranked.csv", gis.WriteCSV, r.rankedLayer(pipes)},
-		{"pipes.geojson", gis.WriteGeoJSON, pipes},
-		{"nodes.geojson", gis.WriteGeoJSON, r.nodeLayer()},
-		{"problems.csv", gis.WriteCSV, r.problemLayer()},
+	pipes, nodes := r.pipeLayer(), r.nodeLayer()
+	outs := []output{{"ranked.csv", func(p string) error { return gis.WriteCSV(p, r.rankedLayer(pipes)) }}}
+	if r.cfg.wants(formatGeoJSON) {
+		outs = append(outs,
+			output{"pipes.geojson", func(p string) error { return gis.WriteGeoJSON(p, pipes) }},
+			output{"nodes.geojson", func(p string) error { return gis.WriteGeoJSON(p, nodes) }})
 	}
+	if r.cfg.wants(formatGeoPackage) {
+		srs := spatialRef(r.pipeLayerCRS)
+		outs = append(outs,
+			output{"pipes.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(pipes)) }},
+			output{"nodes.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(nodes)) }})
+	}
+	if r.cfg.wants(formatShapefile) {
+		var short [][]gis.ShapefileField
+		shp := func(l *gis.Layer) func(string) error {
+			return func(p string) error {
+				f, err := gis.WriteShapefile(p, r.projected(l), r.pipeLayerCRS.ESRIWKT())
+				short = append(short, f)
+				return err
+			}
+		}
+		outs = append(outs, output{"pipes.shp", shp(pipes)}, output{"nodes.shp", shp(nodes)},
+			output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer([]*gis.Layer{pipes, nodes}, short)) }})
+	}
+	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, r.problemLayer()) }})
 	var written []string
-	for _, f := range files {
-		path := filepath.Join(dir, f.name)
+	for _, o := range outs {
+		path := filepath.Join(dir, o.name)
 		if r.isInput(path) {
 			return written, fmt.Errorf("%s is one of the run's inputs; choose another --out so inputs are never overwritten", path)
 		}
-		if err := f.write(path, f.layer); err != nil {
+		if err := o.write(path); err != nil {
 			return written, fmt.Errorf("writing %s: %w", path, err)
 		}
 		written = append(written, path)
 	}
 	return written, nil
+}
+
+// projected returns l with its lon/lat geometry in the pipe layer's
+// coordinate system, for the GeoPackage and shapefile outputs.
+func (r *result) projected(l *gis.Layer) *gis.Layer {
+	crs := r.pipeLayerCRS
+	if crs.Geographic() {
+		return l
+	}
+	out := &gis.Layer{Name: l.Name, Columns: l.Columns, Rows: make([]gis.Row, len(l.Rows))}
+	for i, row := range l.Rows {
+		out.Rows[i] = gis.Row{Geometry: gis.TransformGeometry(row.Geometry, crs.Forward), Values: row.Values}
+	}
+	return out
+}
+
+// userSRSID numbers a spatial reference with no EPSG code, in the range the
+// GeoPackage standard leaves to applications.
+const userSRSID = 100000
+
+// spatialRef is the GeoPackage spatial reference row of a CRS.
+func spatialRef(crs *gis.CRS) gis.SpatialRef {
+	if crs.EPSG != 0 {
+		return gis.SpatialRef{ID: crs.EPSG, Name: crs.Name, Organization: "EPSG", OrgID: crs.EPSG, Definition: crs.WKT1()}
+	}
+	return gis.SpatialRef{ID: userSRSID, Name: crs.Name, Organization: "NONE", OrgID: userSRSID, Definition: crs.WKT1()}
+}
+
+// fieldsLayer maps each shapefile field's short name to its full column
+// name and unit (a .dbf name holds at most 10 characters).
+func fieldsLayer(layers []*gis.Layer, short [][]gis.ShapefileField) *gis.Layer {
+	out := &gis.Layer{Name: "fields", Columns: []gis.Column{
+		{Name: "file", Kind: gis.String}, {Name: "short_name", Kind: gis.String},
+		{Name: "full_name", Kind: gis.String}, {Name: "unit", Kind: gis.String},
+	}}
+	for k, fields := range short {
+		for _, f := range fields {
+			out.Rows = append(out.Rows, gis.Row{Values: []any{layers[k].Name + ".shp", f.Short, f.Full, columnUnit(f.Full)}})
+		}
+	}
+	return out
+}
+
+// columnUnits are the unit suffixes of output column names, longest first.
+var columnUnits = []struct{ suffix, unit string }{
+	{"_ft_per_kft", "feet of head loss per 1,000 ft of pipe"},
+	{"_m_per_km", "metres of head loss per km of pipe"},
+	{"_gpm", "US gallons per minute"}, {"_lps", "litres per second"},
+	{"_fps", "feet per second"}, {"_mps", "metres per second"},
+	{"_psi", "pounds per square inch"}, {"_kpa", "kilopascals"},
+	{"_in", "inches"}, {"_mm", "millimetres"}, {"_ft", "feet"}, {"_m", "metres"},
+}
+
+// columnUnit names the unit an output column's suffix declares, "" for none.
+func columnUnit(name string) string {
+	for _, u := range columnUnits {
+		if strings.HasSuffix(name, u.suffix) {
+			return u.unit
+		}
+	}
+	return ""
 }
 
 // isInput reports whether path names one of the run's input files.

@@ -22,16 +22,22 @@ func runCommand(args []string, stdout, stderr io.Writer) error {
 	fs.SetOutput(stderr)
 	configPath := fs.String("config", "", "TOML config file (default: the built-in demo town)")
 	outDir := fs.String("out", "headroom-out", "folder the results are written to")
+	crsName := fs.String("crs", "", "coordinate system of layers that declare none and have no crs key, e.g. EPSG:2229")
 	if err := fs.Parse(args); err != nil {
 		return usageError{err.Error()}
 	}
 	if fs.NArg() > 0 {
 		return usageError{fmt.Sprintf("unexpected argument %q", fs.Arg(0))}
 	}
+	crs, err := flagCRS(*crsName)
+	if err != nil {
+		return err
+	}
 	in, err := openInputs(*configPath)
 	if err != nil {
 		return err
 	}
+	in.crs = crs
 	res, err := analyse(in)
 	if err != nil {
 		return err
@@ -51,6 +57,21 @@ type inputs struct {
 	// collections, when not nil, replace reading the layer files; names
 	// are the layer file names used in messages either way.
 	pipes, sources, demands, elevations *geojson.FeatureCollection
+	// crs is --crs: the coordinate system of a layer that declares none
+	// and has no crs key of its own.
+	crs *gis.CRS
+}
+
+// flagCRS parses a --crs value; "" means none.
+func flagCRS(name string) (*gis.CRS, error) {
+	if name == "" {
+		return nil, nil
+	}
+	crs, err := gis.ParseCRS(name)
+	if err != nil {
+		return nil, usageError{fmt.Sprintf("--crs %s: %v", name, err)}
+	}
+	return crs, nil
 }
 
 func openInputs(configPath string) (*inputs, error) {
@@ -86,6 +107,9 @@ type result struct {
 	problems   []gis.Problem
 	limits     hydraulics.Limits
 	inputPaths []string // layer and config files read, never to be overwritten
+	// pipeLayerCRS is the pipe layer's coordinate system, which the
+	// GeoPackage and shapefile outputs keep.
+	pipeLayerCRS *gis.CRS
 }
 
 // analyse runs the pipeline: read, build, allocate, age, solve, check, score.
@@ -155,60 +179,64 @@ func analyse(in *inputs) (*result, error) {
 	return r, nil
 }
 
-// readLayers reads the four layers, from files or, for the built-in demo,
-// from the collections already in memory; either way the same code maps
-// their fields.
+// readLayers reads the four layers, from files (GeoJSON, shapefile or
+// GeoPackage, in any supported coordinate system) or, for the built-in
+// demo, from the collections already in memory; either way the same code
+// maps their fields. Point layers are joined in lon/lat; pipe lengths come
+// from the pipe layer's own coordinates.
 func readLayers(in *inputs, r *result) error {
 	cfg := in.cfg
-	load := func(mem *geojson.FeatureCollection, path, key string) (*geojson.FeatureCollection, string, error) {
-		if mem != nil {
-			return mem, filepath.Base(path), nil
+	mem := []*geojson.FeatureCollection{in.pipes, in.sources, in.demands, in.elevations}
+	var layers [4]*gis.Collection
+	for k, l := range cfg.layers() {
+		c, err := openLayer(in, l, mem[k])
+		if err != nil {
+			return err
 		}
-		fc, err := gis.ReadCollection(cfg.path(path), key)
-		return fc, filepath.Base(path), err
+		if c.Note != "" {
+			r.problems = append(r.problems, gis.Problem{File: c.File, Field: "crs", What: c.Note,
+				Action: fmt.Sprintf("set %s.crs to say which coordinate system the layer is in", l.key)})
+		}
+		layers[k] = c
 	}
+	r.pipeLayerCRS = layers[0].CRS
 	keep := func(probs []gis.Problem, err error) error {
 		r.problems = append(r.problems, probs...)
 		return err
 	}
-	fc, name, err := load(in.pipes, cfg.Pipes.Path, "pipes")
-	if err == nil {
-		var probs []gis.Problem
-		r.pipes, probs, err = gis.PipesFromCollection(name, fc, cfg.pipeSchema(), cfg.AnalysisYear)
-		err = keep(probs, err)
-	}
-	if err != nil {
+	var probs []gis.Problem
+	var err error
+	r.pipes, probs, err = gis.PipesFromLayer(layers[0], cfg.pipeSchema(), cfg.AnalysisYear)
+	if err := keep(probs, err); err != nil {
 		return err
 	}
-	points := []struct {
-		mem  *geojson.FeatureCollection
-		path string
-		key  string
-		dst  *[]gis.Point
-		read func(string, *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error)
-	}{
-		{in.sources, cfg.Sources.Path, "sources", &r.sources, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
-			return gis.SourcesFromCollection(n, fc, cfg.sourceSchema())
-		}},
-		{in.demands, cfg.Demands.Path, "demands", &r.demands, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
-			return gis.DemandsFromCollection(n, fc, cfg.demandSchema())
-		}},
-		{in.elevations, cfg.Elevations.Path, "elevations", &r.elevations, func(n string, fc *geojson.FeatureCollection) ([]gis.Point, []gis.Problem, error) {
-			return gis.ElevationsFromCollection(n, fc, cfg.elevationSchema())
-		}},
+	src, dem, elev := layers[1], layers[2], layers[3]
+	r.sources, probs, err = gis.SourcesFromCollection(src.File, src.LonLat(), cfg.sourceSchema())
+	if err := keep(probs, err); err != nil {
+		return err
 	}
-	for _, l := range points {
-		fc, name, err := load(l.mem, l.path, l.key)
+	r.demands, probs, err = gis.DemandsFromCollection(dem.File, dem.LonLat(), cfg.demandSchema())
+	if err := keep(probs, err); err != nil {
+		return err
+	}
+	r.elevations, probs, err = gis.ElevationsFromCollection(elev.File, elev.LonLat(), cfg.elevationSchema())
+	return keep(probs, err)
+}
+
+// openLayer opens one configured layer, or wraps the built-in collection.
+func openLayer(in *inputs, l layerConfig, mem *geojson.FeatureCollection) (*gis.Collection, error) {
+	if mem != nil {
+		return gis.FromGeoJSON(filepath.Base(l.path), mem), nil
+	}
+	opt := gis.OpenOptions{Key: l.key, Table: l.table, Fallback: in.crs}
+	if l.crs != "" {
+		c, err := gis.ParseCRS(l.crs) // validated with the config
 		if err != nil {
-			return err
+			return nil, fmt.Errorf("%s.crs: %w", l.key, err)
 		}
-		var probs []gis.Problem
-		*l.dst, probs, err = l.read(name, fc)
-		if err := keep(probs, err); err != nil {
-			return err
-		}
+		opt.CRS = c
 	}
-	return nil
+	return gis.OpenLayer(in.cfg.path(l.path), opt)
 }
 
 // agedC returns each pipe's Hazen-Williams C and how it was found: a measured

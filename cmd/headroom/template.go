@@ -44,8 +44,13 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("analysis_year = %d  # ages are counted to this year; default: the current year\n\n", c.AnalysisYear)
 
 	f := c.Pipes.Fields
-	p("[pipes]  # LineString / MultiLineString layer of water mains (GeoJSON, lon/lat)\n")
+	layerKeys := func(table, crs string) {
+		p("table = %s  # GeoPackage feature table; \"\" = the only one\n", str(table))
+		p("crs = %s  # coordinate system when the layer declares none, e.g. \"EPSG:2229\"; \"\" = as declared\n", str(crs))
+	}
+	p("[pipes]  # LineString / MultiLineString layer of water mains: .geojson, .shp or .gpkg\n")
 	p("path = %s\n", str(c.Pipes.Path))
+	layerKeys(c.Pipes.Table, c.Pipes.CRS)
 	p("[pipes.fields]  # property names in the layer; \"\" = not in the layer\n")
 	p("id = %s  # required, unique\n", str(f.ID))
 	p("diameter = %s  # required, > 0\n", str(f.Diameter))
@@ -62,6 +67,7 @@ func writeConfig(w io.Writer, c *Config) error {
 	sf := c.Sources.Fields
 	p("[sources]  # Point layer of fixed-grade supplies: tanks, reservoirs, pumped supplies at a set head\n")
 	p("path = %s\n", str(c.Sources.Path))
+	layerKeys(c.Sources.Table, c.Sources.CRS)
 	p("[sources.fields]\n")
 	p("id = %s\nname = %s\n", str(sf.ID), str(sf.Name))
 	p("grade = %s  # required: the hydraulic grade held (water-surface elevation)\n", str(sf.Grade))
@@ -70,6 +76,7 @@ func writeConfig(w io.Writer, c *Config) error {
 	df := c.Demands.Fields
 	p("[demands]  # Point layer of average-day demands (meters, parcels); each goes to its nearest junction\n")
 	p("path = %s\n", str(c.Demands.Path))
+	layerKeys(c.Demands.Table, c.Demands.CRS)
 	p("peak_hour_factor = %s  # required: peak-hour ÷ average-day demand (typically 2.0–4.0); no default\n", num(c.Demands.PeakHourFactor))
 	q(c.warnDistance(), "a demand point farther than this from its node is listed in problems.csv")
 	p("[demands.fields]\n")
@@ -79,6 +86,7 @@ func writeConfig(w io.Writer, c *Config) error {
 	ef := c.Elevations.Fields
 	p("[elevations]  # Point layer of spot heights; node elevation by inverse-distance weighting\n")
 	p("path = %s\n", str(c.Elevations.Path))
+	layerKeys(c.Elevations.Table, c.Elevations.CRS)
 	p("neighbours = %d  # spot heights averaged per node\n", c.Elevations.Neighbours)
 	p("power = %s  # inverse-distance power\n", num(c.Elevations.Power))
 	p("[elevations.fields]\n")
@@ -114,6 +122,10 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("c_poor = %s  # C scoring 100\n", num(sc.CFactor.Poor))
 	p("deficit_good_fraction = %s  # deficit ÷ capacity scoring 0\n", num(sc.Deficit.Good))
 	p("deficit_poor_fraction = %s  # deficit ÷ capacity scoring 100\n\n", num(sc.Deficit.Poor))
+
+	p("[output]\n")
+	p("formats = %s  # pipe and node layers: \"geojson\" (WGS84), \"gpkg\" and \"shp\" (the pipe layer's coordinate system)\n\n",
+		list(orDefaultList(c.Output.Formats, defaultFormats)))
 
 	p("[aging]  # Hazen-Williams C by material and age, interpolated linearly, held beyond the ends\n")
 	p("unknown_age_years = %s  # age used when the install year is missing or implausible\n", num(c.Aging.UnknownAgeYears))
