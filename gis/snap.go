@@ -631,3 +631,19 @@ func (t *Topology) ensureIndex() {
 		t.index.Insert(xy, xy, k)
 	}
 }
+
+// DanglingEnds returns, per dangling node (one that only one link reaches)
+// in node order, the node and the input pipe whose end it is.
+func (t *Topology) DanglingEnds() [][2]int {
+	var out [][2]int
+	deg := t.topoDegree()
+	for _, l := range t.Links {
+		for _, n := range [2]int{l.From, l.To} {
+			if deg[n] == 1 {
+				out = append(out, [2]int{n, l.Pipe})
+			}
+		}
+	}
+	slices.SortFunc(out, func(a, b [2]int) int { return cmp.Compare(a[0], b[0]) })
+	return out
+}

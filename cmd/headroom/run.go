@@ -138,6 +138,7 @@ func analyse(in *inputs) (*result, error) {
 	for _, s := range supplies {
 		fixed[s.Node] = true
 	}
+	r.noteDeadEnds(fixed)
 	demand, probs := gis.AllocateDemands(topo, r.demands, fixed, hydraulics.Length(cfg.si(cfg.warnDistance())))
 	r.problems = append(r.problems, probs...)
 	elev, err := gis.InterpolateElevations(topo, r.elevations, cfg.Elevations.Neighbours, cfg.Elevations.Power)
@@ -286,6 +287,24 @@ func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
 	return fmt.Errorf("the peak-hour solve did not converge after %d iterations (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
 		"Raise solver.max_iterations, or check that pipe's diameter, length and C, closed pipes that split the network, and the source grades",
 		nc.Iterations, nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
+}
+
+// noteDeadEnds lists every dangling pipe end other than a source's node.
+// Most are real dead ends; the list lets an engineer find the few that are
+// drawing errors (near-misses are also reported on their own).
+func (r *result) noteDeadEnds(fixed []bool) {
+	file := filepath.Base(r.cfg.Pipes.Path)
+	for _, d := range r.topo.DanglingEnds() {
+		if fixed[d[0]] {
+			continue
+		}
+		p := r.pipes[d[1]]
+		r.problems = append(r.problems, gis.Problem{
+			File: file, Feature: p.Index, ID: p.ID, Field: "geometry",
+			What:   fmt.Sprintf("dead end: node %s, an end of this pipe, joins no other pipe", r.topo.Nodes[d[0]].ID),
+			Action: "none if the main ends here; otherwise join it to the main it meets",
+		})
+	}
 }
 
 // noteUnsupplied lists, per pipe, the pipes in parts of the network that no

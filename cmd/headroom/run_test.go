@@ -391,3 +391,37 @@ func requireTool(t *testing.T, name string) string {
 	t.Skipf("%s not installed (Debian gdal-bin / proj-bin); skipping", name)
 	return ""
 }
+
+// An SI run and a US run of the same network give the same physical answer
+// within 0.05 % (issue 3): the unit system changes only what users read.
+func TestSIAndUSRunsAgree(t *testing.T) {
+	solve := func(units string) *result {
+		in, err := builtInDemo()
+		if err != nil {
+			t.Fatal(err)
+		}
+		in.cfg.Units = units
+		r, err := analyse(in)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return r
+	}
+	us, si := solve("us"), solve("si")
+	rel := func(a, b float64) float64 { return math.Abs(a-b) / math.Max(math.Abs(a), 1e-9) }
+	for j := range us.sol.Flow {
+		if a, b := float64(us.sol.Flow[j]), float64(si.sol.Flow[j]); math.Abs(a-b) > 1e-9 && rel(a, b) > 5e-4 {
+			t.Fatalf("pipe %d: flow %g m³/s (us) vs %g m³/s (si)", j, a, b)
+		}
+	}
+	for i := range us.sol.Head {
+		if a, b := float64(us.sol.Head[i]), float64(si.sol.Head[i]); rel(a, b) > 5e-4 {
+			t.Fatalf("node %d: head %g m (us) vs %g m (si)", i, a, b)
+		}
+	}
+	for i := range us.scores {
+		if us.scores[i].Rank != si.scores[i].Rank {
+			t.Fatalf("pipe %s: rank %d (us) vs %d (si)", us.scores[i].ID, us.scores[i].Rank, si.scores[i].Rank)
+		}
+	}
+}
