@@ -223,7 +223,7 @@ func TestNoConvergenceWritesNothing(t *testing.T) {
 	})
 	out := filepath.Join(t.TempDir(), "out")
 	code, stdout, stderr := runHeadroom(t, "run", "--config", filepath.Join(dir, "headroom.toml"), "--out", out)
-	if code != exitError || !strings.Contains(stderr, "no results were written") {
+	if code != exitSolver || !strings.Contains(stderr, "no results were written") {
 		t.Errorf("exit %d, stderr %q; want a convergence error", code, stderr)
 	}
 	if stdout != "" {

@@ -20,11 +20,12 @@ import (
 	"os"
 )
 
-// Exit codes.
+// Exit codes (README: 0 ok, 1 input, 2 usage, 3 solver).
 const (
-	exitOK    = 0
-	exitError = 1 // the run failed: bad input, no convergence, a write error
-	exitUsage = 2 // the command line was wrong
+	exitOK     = 0
+	exitError  = 1 // input problems (or a write error) stopped the run
+	exitUsage  = 2 // the command line was wrong
+	exitSolver = 3 // the network could not be solved: no convergence, no supplied junction
 )
 
 func main() {
@@ -62,9 +63,19 @@ func headroomMain(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "headroom %s: %s\n", args[0], ue.msg)
 		return exitUsage
 	}
+	if se, ok := err.(solverError); ok {
+		fmt.Fprintf(stderr, "headroom %s: %v\n", args[0], se.err)
+		return exitSolver
+	}
 	fmt.Fprintf(stderr, "headroom %s: %v\n", args[0], err)
 	return exitError
 }
+
+// solverError is a network the solver could not solve (exit code 3).
+type solverError struct{ err error }
+
+func (e solverError) Error() string { return e.err.Error() }
+func (e solverError) Unwrap() error { return e.err }
 
 // usageError is a mistake on the command line (exit code 2).
 type usageError struct{ msg string }

@@ -158,9 +158,9 @@ func analyse(in *inputs) (*result, error) {
 	if err != nil {
 		var nc *hydraulics.NotConvergedError
 		if errors.As(err, &nc) {
-			return nil, r.notConverged(nc)
+			return nil, solverError{r.notConverged(nc)}
 		}
-		return nil, fmt.Errorf("peak-hour solve: %w", err)
+		return nil, solverError{fmt.Errorf("peak-hour solve: %w", err)}
 	}
 	r.sol = sol
 	r.noteUnsupplied()
