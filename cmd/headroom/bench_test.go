@@ -31,7 +31,7 @@ func benchmarkRun(b *testing.B, n int) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		if _, err := writeOutputs(out, r); err != nil {
+		if _, err := writeOutputs(out, r, writeOptions{}); err != nil {
 			b.Fatal(err)
 		}
 		iters = r.sol.Iterations

@@ -12,6 +12,13 @@ import (
 	"headroom/hydraulics"
 )
 
+// writeOptions are the run's choices about where outputs may go.
+type writeOptions struct {
+	// allowInputFolder lets --out be a folder that holds an input
+	// (--allow-input-folder); an input file is never overwritten.
+	allowInputFolder bool
+}
+
 // output is one file (or, for a shapefile, one set of files) to write.
 type output struct {
 	name  string
@@ -21,7 +28,7 @@ type output struct {
 // writeOutputs writes the result files into dir, each atomically, and
 // returns their paths in the order written: ranked.csv, then the pipe and
 // node layers in each configured format, then problems.csv.
-func writeOutputs(dir string, r *result) ([]string, error) {
+func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	if err := prepareOutDir(dir); err != nil {
 		return nil, err
 	}

@@ -23,6 +23,7 @@ func runCommand(args []string, stdout, stderr io.Writer) error {
 	configPath := fs.String("config", "", "TOML config file (default: the built-in demo town)")
 	outDir := fs.String("out", "headroom-out", "folder the results are written to")
 	crsName := fs.String("crs", "", "coordinate system of layers that declare none and have no crs key, e.g. EPSG:2229")
+	shareFolder := fs.Bool("allow-input-folder", false, "allow --out to be a folder that holds an input layer or the config")
 	if err := fs.Parse(args); err != nil {
 		return usageError{err.Error()}
 	}
@@ -42,7 +43,7 @@ func runCommand(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	written, err := writeOutputs(*outDir, res)
+	written, err := writeOutputs(*outDir, res, writeOptions{allowInputFolder: *shareFolder})
 	if err != nil {
 		return err
 	}
