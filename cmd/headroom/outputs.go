@@ -8,6 +8,8 @@ import (
 	"slices"
 	"strings"
 
+	"github.com/paulmach/orb"
+
 	"headroom/gis"
 	"headroom/hydraulics"
 )
@@ -25,15 +27,28 @@ type output struct {
 	write func(path string) error
 }
 
-// writeOutputs writes the result files into dir, each atomically, and
-// returns their paths in the order written: ranked.csv, then the pipe and
-// node layers in each configured format, then problems.csv.
+// writeOutputs writes the result files into dir and returns their paths:
+// ranked.csv, then the pipe and node layers in each configured format, then
+// problems.csv. The set is all-or-nothing (see commitOutputs): every file is
+// written into a staging folder inside dir and renamed into place only when
+// all are complete, so a failure or a kill while writing leaves the
+// previous outputs untouched; only a kill during the final renames (well
+// under a millisecond) can leave a mix of this run's files and the last
+// run's, each whole.
+//
+// Before anything is written it refuses a dir that holds an input unless
+// opt.allowInputFolder is set, any output that would replace an input file,
+// and any NaN or ±Inf value in the layers (see checkFinite).
 func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
-	if err := prepareOutDir(dir); err != nil {
+	if err := checkOutFolder(dir, r.inputPaths, opt.allowInputFolder); err != nil {
 		return nil, err
 	}
 	pipes, nodes := r.pipeLayer(), r.nodeLayer()
-	outs := []output{{"ranked.csv", func(p string) error { return gis.WriteCSV(p, r.rankedLayer(pipes)) }}}
+	ranked, problems := r.rankedLayer(pipes), r.problemLayer()
+	if err := checkFinite(pipes, nodes, ranked, problems); err != nil {
+		return nil, err
+	}
+	outs := []output{{"ranked.csv", func(p string) error { return gis.WriteCSV(p, ranked) }}}
 	if r.cfg.wants(formatGeoJSON) {
 		outs = append(outs,
 			output{"pipes.geojson", func(p string) error { return gis.WriteGeoJSON(p, pipes) }},
@@ -49,7 +64,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		var short [][]gis.ShapefileField
 		shp := func(l *gis.Layer) func(string) error {
 			return func(p string) error {
-				f, err := gis.WriteShapefile(p, r.projected(l), r.pipeLayerCRS.ESRIWKT())
+				f, err := gis.WriteShapefile(p, oneShapeType(r.projected(l)), r.pipeLayerCRS.ESRIWKT())
 				short = append(short, f)
 				return err
 			}
@@ -57,19 +72,18 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		outs = append(outs, output{"pipes.shp", shp(pipes)}, output{"nodes.shp", shp(nodes)},
 			output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer([]*gis.Layer{pipes, nodes}, short)) }})
 	}
-	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, r.problemLayer()) }})
-	var written []string
+	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
 	for _, o := range outs {
-		path := filepath.Join(dir, o.name)
-		if r.isInput(path) {
-			return written, fmt.Errorf("%s is one of the run's inputs; choose another --out so inputs are never overwritten", path)
+		for _, f := range producedFiles(o.name) {
+			if path := filepath.Join(dir, f); r.isInput(path) {
+				return nil, fmt.Errorf("%s is one of the run's inputs; choose another --out so inputs are never overwritten", path)
+			}
 		}
-		if err := o.write(path); err != nil {
-			return written, fmt.Errorf("writing %s: %w", path, err)
-		}
-		written = append(written, path)
 	}
-	return written, nil
+	if err := prepareOutDir(dir); err != nil {
+		return nil, err
+	}
+	return commitOutputs(dir, outs)
 }
 
 // projected returns l with its lon/lat geometry in the pipe layer's
@@ -82,6 +96,30 @@ func (r *result) projected(l *gis.Layer) *gis.Layer {
 	out := &gis.Layer{Name: l.Name, Columns: l.Columns, Rows: make([]gis.Row, len(l.Rows))}
 	for i, row := range l.Rows {
 		out.Rows[i] = gis.Row{Geometry: gis.TransformGeometry(row.Geometry, crs.Forward), Values: row.Values}
+	}
+	return out
+}
+
+// oneShapeType returns l with every geometry that is not of the layer's
+// kind (lines for pipes, points for nodes) written as a null shape: a
+// shapefile holds one shape type, and a pipe whose geometry was a point is
+// still a row, unscored, with its reason.
+func oneShapeType(l *gis.Layer) *gis.Layer {
+	keep := func(g orb.Geometry) bool {
+		switch g.(type) {
+		case orb.LineString, orb.MultiLineString:
+			return l.Name != "nodes"
+		case orb.Point:
+			return l.Name == "nodes"
+		}
+		return false
+	}
+	out := &gis.Layer{Name: l.Name, Columns: l.Columns, Rows: make([]gis.Row, len(l.Rows))}
+	for i, row := range l.Rows {
+		out.Rows[i] = row
+		if !keep(row.Geometry) {
+			out.Rows[i].Geometry = nil
+		}
 	}
 	return out
 }
