@@ -45,6 +45,19 @@ type Pipe struct {
 // one centreline: 0.5 ft, the usual snap tolerance.
 const PartGap = 0.5 * hydraulics.Foot
 
+// Plausible sizes and lengths of one water-main segment (common practice, no
+// source). Service lines are under 1 in and the largest transmission mains
+// are about 12 ft across, so a diameter outside MinDiameter..MaxDiameter is a
+// unit mix-up or a typing error (8 in written as 0.8 or as 800). A segment
+// runs between fittings; one longer than MaxSegmentLength is almost always a
+// length in the wrong unit or a stray vertex. A mapped length shorter than
+// PartGap (the usual snap tolerance) would be a zero-length pipe.
+const (
+	MinDiameter      = 1 * hydraulics.Inch
+	MaxDiameter      = 144 * hydraulics.Inch
+	MaxSegmentLength = 5 * 5280 * hydraulics.Foot // 5 miles
+)
+
 // Plausible install years: from FirstInstallYear to the analysis year.
 const FirstInstallYear = 1800
 
@@ -291,6 +304,11 @@ func (r *pipeReader) diameter(p *Pipe, f *geojson.Feature) {
 		r.drop(p, name, "diameter "+err.Error(), fix)
 	case x <= 0:
 		r.drop(p, name, fmt.Sprintf("diameter %s is not > 0", fmtNum(x)), fix)
+	case hydraulics.Length(x)*r.dUnit < MinDiameter || hydraulics.Length(x)*r.dUnit > MaxDiameter:
+		u := unitLabel(r.s.DiameterUnit, "in")
+		r.drop(p, name, fmt.Sprintf("diameter %s %s is outside the plausible %s %s for a water main",
+			fmtNum(x), u, plausibleDiameters(r.dUnit), u),
+			"correct the diameter, or the config key pipes.fields.diameter_unit if the layer is in another unit")
 	default:
 		p.Diameter = hydraulics.Length(x) * r.dUnit
 	}
@@ -385,20 +403,46 @@ func (r *pipeReader) length(p *Pipe, f *geojson.Feature) {
 		p.Length, p.LengthSource = GeodesicLength(p.Line), LengthGeodesic
 	}
 	v, name, ok := lookup(f.Properties, r.s.Length)
-	if !ok {
-		return
+	if ok {
+		r.lengthField(p, v, name)
 	}
-	const fix = "length taken from the geometry; correct the value or leave it empty"
+	if p.Usable && p.LengthSource == LengthGeodesic && p.Length > MaxSegmentLength {
+		r.add(p, "geometry", fmt.Sprintf("the line is %s long, more than %s for one segment",
+			formatDistance(p.Length), formatDistance(MaxSegmentLength)),
+			"pipe kept with its drawn length; check for a stray vertex or a layer in the wrong coordinate system")
+	}
+}
+
+// lengthField applies a mapped length value, unless it is missing or
+// implausible (then the length from the geometry stays).
+func (r *pipeReader) lengthField(p *Pipe, v any, name string) {
+	fix := "length taken from the geometry; correct the value or leave it empty"
+	if p.Line == nil {
+		fix = "correct the value or leave it empty"
+	}
 	x, err := number(v)
+	l := hydraulics.Length(x) * r.lUnit
 	switch {
 	case err == errMissing:
 	case err != nil:
 		r.add(p, name, "length "+err.Error(), fix)
 	case x <= 0:
 		r.add(p, name, fmt.Sprintf("length %s is not > 0", fmtNum(x)), fix)
+	case l > MaxSegmentLength:
+		r.add(p, name, fmt.Sprintf("length %s %s (%s) is more than %s for one segment",
+			fmtNum(x), unitLabel(r.s.LengthUnit, "ft"), formatDistance(l), formatDistance(MaxSegmentLength)),
+			fix+"; check the config key pipes.fields.length_unit")
+	case l < PartGap:
+		r.add(p, name, fmt.Sprintf("length %s %s is shorter than %s, a zero-length pipe",
+			fmtNum(x), unitLabel(r.s.LengthUnit, "ft"), formatDistance(PartGap)), fix)
 	default:
-		p.Length, p.LengthSource = hydraulics.Length(x)*r.lUnit, LengthField
+		p.Length, p.LengthSource = l, LengthField
 	}
+}
+
+// plausibleDiameters writes MinDiameter..MaxDiameter in the layer's unit.
+func plausibleDiameters(unit hydraulics.Length) string {
+	return fmt.Sprintf("%s–%s", fmtNum(float64(MinDiameter/unit)), fmtNum(math.Round(float64(MaxDiameter/unit))))
 }
 
 // formatDistance writes a distance for a message in both metres and feet.

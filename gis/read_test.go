@@ -2,6 +2,7 @@ package gis
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -69,12 +70,13 @@ func TestReadPipesGood(t *testing.T) {
 func TestReadPipesMillimetresAndMetres(t *testing.T) {
 	s := testSchema
 	s.DiameterUnit, s.LengthUnit = "mm", "m"
-	pipes, _, err := PipesFromCollection("p.geojson", mustDecode(t, collection(pipeFeature(goodProps+`,"LEN_FT":12.5`))), s, 2026)
+	props := strings.Replace(goodProps, `"DIAM_IN":8`, `"DIAM_IN":200`, 1)
+	pipes, _, err := PipesFromCollection("p.geojson", mustDecode(t, collection(pipeFeature(props+`,"LEN_FT":12.5`))), s, 2026)
 	if err != nil {
 		t.Fatal(err)
 	}
-	// 8 mm and 12.5 m by definition of the units.
-	if pipes[0].Diameter != 8*hydraulics.Millimetre || pipes[0].Length != 12.5 {
+	// 200 mm and 12.5 m by definition of the units.
+	if pipes[0].Diameter != 200*hydraulics.Millimetre || pipes[0].Length != 12.5 {
 		t.Errorf("got diameter %v m, length %v m", pipes[0].Diameter, pipes[0].Length)
 	}
 }
@@ -156,6 +158,19 @@ func TestReadPipesProblems(t *testing.T) {
 			"geometry", "line has 1 distinct vertices, want at least 2", "left out", false, 1950},
 		{"projected coordinates", `{"type":"Feature","properties":{"PIPE_ID":"P-204","DIAM_IN":8,"MATL":"CI","YR":1950},"geometry":{"type":"LineString","coordinates":[[6500000,1900000],[6500100,1900000]]}}`,
 			"geometry", "vertex 1 (6500000, 1900000) is not a lon/lat position", "lon/lat", false, 1950},
+		// Plausibility bounds (gis.MinDiameter, MaxDiameter, MaxSegmentLength, PartGap): common practice, no source.
+		{"absurd diameter", pipeFeature(`"PIPE_ID":"P-204","DIAM_IN":1000,"MATL":"CI","YR":1950`),
+			"DIAM_IN", "diameter 1000 in is outside the plausible 1–144 in for a water main", "left out", false, 1950},
+		{"diameter below an inch", pipeFeature(`"PIPE_ID":"P-204","DIAM_IN":0.5,"MATL":"CI","YR":1950`),
+			"DIAM_IN", "diameter 0.5 in is outside the plausible 1–144 in", "diameter_unit", false, 1950},
+		// 500 mi = 2,640,000 ft (1 mi = 5,280 ft by definition).
+		{"500-mile length", pipeFeature(`"PIPE_ID":"P-204","DIAM_IN":8,"MATL":"CI","YR":1950,"LEN_FT":2640000`),
+			"LEN_FT", "length 2640000 ft (804672.00 m, 2640000.0 ft) is more than 8046.72 m, 26400.0 ft for one segment", "length taken from the geometry", true, 1950},
+		{"length below the snap tolerance", pipeFeature(`"PIPE_ID":"P-204","DIAM_IN":8,"MATL":"CI","YR":1950,"LEN_FT":0.2`),
+			"LEN_FT", "length 0.2 ft is shorter than 0.15 m, 0.5 ft", "length taken from the geometry", true, 1950},
+		// 0.1° of latitude at 35° N is about 11.1 km (6.9 mi): longer than 5 mi.
+		{"drawn longer than 5 miles", `{"type":"Feature","properties":{"PIPE_ID":"P-204","DIAM_IN":8,"MATL":"CI","YR":1950},"geometry":{"type":"LineString","coordinates":[[-97.5,35],[-97.5,35.1]]}}`,
+			"geometry", "more than 8046.72 m, 26400.0 ft for one segment", "pipe kept with its drawn length", true, 1950},
 		{"disjoint parts", `{"type":"Feature","properties":{"PIPE_ID":"P-204","DIAM_IN":8,"MATL":"CI","YR":1950},"geometry":{"type":"MultiLineString","coordinates":[[[-97.5,35],[-97.5,35.001]],[[-97.4,35.001],[-97.4,35.002]]]}}`,
 			"geometry", "part 2 does not start where part 1 ends", "split it into one feature per part", false, 1950},
 	}
@@ -186,6 +201,35 @@ func TestReadPipesProblems(t *testing.T) {
 			}
 			if !pipes[0].Usable && (pipes[0].Reason == "" || pipes[0].Line != nil) {
 				t.Errorf("unusable pipe: reason %q line %v", pipes[0].Reason, pipes[0].Line)
+			}
+		})
+	}
+}
+
+// The plausibility bounds are inclusive, in the layer's own unit: 1 in and
+// 144 in are kept, and so are 25.4 mm and 3657.6 mm (1 in = 25.4 mm exactly).
+func TestReadPipesDiameterBoundsInclusive(t *testing.T) {
+	cases := []struct {
+		name, unit string
+		value      float64
+		want       hydraulics.Length
+	}{
+		{"1 in", "in", 1, 1 * hydraulics.Inch},
+		{"144 in", "in", 144, 144 * hydraulics.Inch},
+		{"25.4 mm", "mm", 25.4, 25.4 * hydraulics.Millimetre},
+		{"3657.6 mm", "mm", 3657.6, 3657.6 * hydraulics.Millimetre},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := testSchema
+			s.DiameterUnit = c.unit
+			props := strings.Replace(goodProps, `"DIAM_IN":8`, fmt.Sprintf(`"DIAM_IN":%v`, c.value), 1)
+			pipes, _, err := PipesFromCollection("p.geojson", mustDecode(t, collection(pipeFeature(props))), s, 2026)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !pipes[0].Usable || math.Abs(float64(pipes[0].Diameter-c.want)) > 1e-12 {
+				t.Errorf("usable %v diameter %v m, want %v m (%s)", pipes[0].Usable, pipes[0].Diameter, c.want, pipes[0].Reason)
 			}
 		})
 	}

@@ -122,6 +122,9 @@ func analyse(in *inputs) (*result, error) {
 			cfg.path(cfg.Demands.Path), cfg.path(cfg.Elevations.Path), filepath.Join(cfg.dir, cfg.file)}
 	}
 	if err := readLayers(in, r); err != nil {
+		if errors.Is(err, gis.ErrNoUsable) {
+			return nil, withProblems(err, r.problems, "")
+		}
 		return nil, err
 	}
 	topo, probs := gis.Snap(r.pipes, hydraulics.Length(cfg.si(cfg.snapTolerance())))
@@ -131,8 +134,8 @@ func analyse(in *inputs) (*result, error) {
 	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
 	r.problems = append(r.problems, probs...)
 	if len(supplies) == 0 {
-		return nil, fmt.Errorf("%s: no source lies within %s of a pipe end; check the source locations and network.source_search",
-			cfg.Sources.Path, formatLength(cfg, cfg.si(cfg.sourceSearch())))
+		return nil, withProblems(fmt.Errorf("%s: no source lies within %s of a pipe end; check the source locations and network.source_search",
+			cfg.Sources.Path, formatLength(cfg, cfg.si(cfg.sourceSearch()))), r.problems, filepath.Base(cfg.Sources.Path))
 	}
 	r.supplies = supplies
 	fixed := make([]bool, len(topo.Nodes))
@@ -161,6 +164,9 @@ func analyse(in *inputs) (*result, error) {
 		if errors.As(err, &nc) {
 			return nil, solverError{r.notConverged(nc)}
 		}
+		if errors.Is(err, hydraulics.ErrNoSupply) {
+			return nil, solverError{r.noSupply()}
+		}
 		return nil, solverError{fmt.Errorf("peak-hour solve: %w", err)}
 	}
 	r.sol = sol
@@ -172,12 +178,14 @@ func analyse(in *inputs) (*result, error) {
 		r.belowMin[n] = true
 	}
 	r.noteFormulaRange()
+	negative := r.noteNegativePressure()
 
 	scores, err := scoring.Rank(r.scoringInput(), cfg.scoringConfig(), r.limits)
 	if err != nil {
 		return nil, err
 	}
 	r.scores = scores
+	r.flagNegativePressure(negative)
 	return r, nil
 }
 
@@ -285,9 +293,17 @@ func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
 			where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
 		}
 	}
-	return fmt.Errorf("the peak-hour solve did not converge after %d iterations (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
+	return fmt.Errorf("the peak-hour solve did not converge in %d Newton iteration%s (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
 		"Raise solver.max_iterations, or check that pipe's diameter, length and C, closed pipes that split the network, and the source grades",
-		nc.Iterations, nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
+		nc.Iterations, plural(nc.Iterations), nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
+}
+
+// plural returns "s" unless n is 1.
+func plural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
 }
 
 // noteDeadEnds lists every dangling pipe end other than a source's node.
@@ -342,6 +358,32 @@ func (r *result) noteFormulaRange() {
 			})
 		}
 	}
+}
+
+// noteNegativePressure lists each junction whose peak-hour pressure is below
+// zero, p = ρg·(H − z) < 0: the hydraulic grade lies under the ground, which
+// a steady model can compute but a real main cannot hold (it would draw air
+// or run empty). It returns those junctions, ascending.
+func (r *result) noteNegativePressure() []int {
+	s := r.cfg.system()
+	file := filepath.Base(r.cfg.Pipes.Path)
+	var nodes []int
+	for i, n := range r.net.Nodes {
+		h := r.sol.Head[i]
+		if n.Fixed || math.IsNaN(float64(h)) {
+			continue
+		}
+		if p := hydraulics.NodePressure(n, h); p < 0 {
+			nodes = append(nodes, i)
+			r.problems = append(r.problems, gis.Problem{
+				File: file, ID: n.ID, Field: "pressure_" + s.PressureSuffix(),
+				What: fmt.Sprintf("junction %s has a peak-hour pressure of %.1f %s (hydraulic grade %.1f %s, ground %.1f %s)",
+					n.ID, s.Pressure(p), s.PressureLabel(), s.Head(h), s.LengthLabel(), s.Length(n.Elevation), s.LengthLabel()),
+				Action: "the source grade is below the ground here; check the source's grade and the elevations (its pipes are scored, and their reasons say so)",
+			})
+		}
+	}
+	return nodes
 }
 
 // unsupplied reports whether net pipe j touches a node no source reaches.

@@ -44,28 +44,15 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 	return err
 }
 
+// summariseInputs prints each layer's features in and out (see accounts)
+// and the network built from the pipes.
 func (r *result) summariseInputs(p func(string, ...any)) {
-	s := r.cfg.system()
-	var usable, closed int
-	for _, pp := range r.pipes {
-		if pp.Usable {
-			usable++
-		}
-		if pp.Closed {
-			closed++
-		}
-	}
-	var add hydraulics.Flow
-	for _, n := range r.net.Nodes {
-		add += n.Demand
-	}
 	p("Inputs\n")
 	var t strings.Builder
 	tw := tabwriter.NewWriter(&t, 0, 0, 2, ' ', 0)
-	fmt.Fprintf(tw, "  %s\t%d pipes: %d in the network (%d closed), %d left out\n", r.cfg.Pipes.Path, len(r.pipes), usable, closed, len(r.pipes)-usable)
-	fmt.Fprintf(tw, "  %s\t%d sources, %d joined to the network\n", r.cfg.Sources.Path, len(r.sources), len(r.supplies))
-	fmt.Fprintf(tw, "  %s\t%d points, %.1f %s average day\n", r.cfg.Demands.Path, len(r.demands), s.Flow(add), s.FlowLabel())
-	fmt.Fprintf(tw, "  %s\t%d spot heights\n", r.cfg.Elevations.Path, len(r.elevations))
+	for _, a := range r.accounts() {
+		fmt.Fprintf(tw, "  %s\n", a)
+	}
 	inNet := 0
 	for _, parts := range r.parts {
 		if len(parts) > 0 {
