@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 
 	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/geojson"
@@ -124,40 +125,93 @@ func WriteGeoJSON(path string, l *Layer) error {
 // WriteCSV writes l as CSV (RFC 4180 quoting), atomically: a header of
 // column names, then one record per row; no geometry. Null values are
 // empty fields.
+//
+// Text is made safe to open in a spreadsheet (CSV or formula injection,
+// CWE-1236): a header name or a string value that starts with '=', '+',
+// '-', '@', a tab or a carriage return is written with a single quote '
+// in front of it, so that a spreadsheet shows it as text instead of
+// evaluating it as a formula; this is the OWASP "CSV Injection" advice.
+// Numbers stay numbers: integer and float values are never changed, whatever
+// the column kind, and neither is a string that is entirely a plain decimal
+// number (an optional sign, digits, at most one '.', as "-12.5" or "+3"),
+// since a spreadsheet reads that as the number it is, not as a formula.
+// Exponent forms ("-1e3") are not plain decimals and get the quote. A
+// reader of the CSV sees the quote as part of the text: an id "=A1" comes
+// back as "'=A1". GeoJSON, GeoPackage and shapefile outputs are data, not
+// spreadsheets, and keep the text as it is.
 func WriteCSV(path string, l *Layer) error {
-	return WriteFileAtomic(path, func(w io.Writer) error {
-		cw := csv.NewWriter(w)
-		rec := make([]string, len(l.Columns))
+	return WriteFileAtomic(path, func(w io.Writer) error { return writeCSV(w, l) })
+}
+
+// writeCSV writes the records of WriteCSV to w.
+func writeCSV(w io.Writer, l *Layer) error {
+	cw := csv.NewWriter(w)
+	rec := make([]string, len(l.Columns))
+	for j, c := range l.Columns {
+		rec[j] = formulaSafe(c.Name)
+	}
+	if err := cw.Write(rec); err != nil {
+		return err
+	}
+	var buf []byte
+	for i, r := range l.Rows {
+		if len(r.Values) != len(l.Columns) {
+			return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
+		}
 		for j, c := range l.Columns {
-			rec[j] = c.Name
+			if s, ok := r.Values[j].(string); ok {
+				rec[j] = formulaSafe(s)
+				continue
+			}
+			s, isNull, err := formatValue(buf[:0], c, r.Values[j])
+			if err != nil {
+				return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
+			}
+			if isNull {
+				rec[j] = ""
+			} else {
+				rec[j] = string(s)
+			}
+			buf = s
 		}
 		if err := cw.Write(rec); err != nil {
 			return err
 		}
-		var buf []byte
-		for i, r := range l.Rows {
-			if len(r.Values) != len(l.Columns) {
-				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
-			}
-			for j, c := range l.Columns {
-				s, isNull, err := formatValue(buf[:0], c, r.Values[j])
-				if err != nil {
-					return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
-				}
-				if isNull {
-					rec[j] = ""
-				} else {
-					rec[j] = string(s)
-				}
-				buf = s
-			}
-			if err := cw.Write(rec); err != nil {
-				return err
-			}
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// formulaSafe returns text for a spreadsheet cell: s with a single quote in
+// front when its first byte is one that starts a formula ('=', '+', '-',
+// '@', tab, carriage return; OWASP "CSV Injection") and s is not a plain
+// decimal number; s unchanged otherwise.
+func formulaSafe(s string) string {
+	if s == "" || !strings.ContainsRune("=+-@\t\r", rune(s[0])) || isPlainDecimal(s) {
+		return s
+	}
+	return "'" + s
+}
+
+// isPlainDecimal reports whether s is an optional sign followed by digits
+// with at most one decimal point and at least one digit ("-12.5", "+3",
+// "-.5", "7."). Exponents, thousands separators and spaces are not plain.
+func isPlainDecimal(s string) bool {
+	if s != "" && (s[0] == '+' || s[0] == '-') {
+		s = s[1:]
+	}
+	digits, points := 0, 0
+	for i := 0; i < len(s); i++ {
+		switch c := s[i]; {
+		case c >= '0' && c <= '9':
+			digits++
+		case c == '.':
+			points++
+		default:
+			return false
 		}
-		cw.Flush()
-		return cw.Error()
-	})
+	}
+	return digits > 0 && points <= 1
 }
 
 // formatValue appends the text of v to buf. isNull reports a value written

@@ -11,6 +11,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -249,4 +250,174 @@ func TestWriteGeoJSONOgrinfo(t *testing.T) {
 			t.Errorf("ogrinfo output lacks %q:\n%s", want, s)
 		}
 	}
+}
+
+// csvInjectionLayer holds one hostile or harmless id per row, beside typed
+// numbers that must never be altered.
+func csvInjectionLayer(ids []string) *Layer {
+	l := &Layer{Name: "ranked", Columns: []Column{
+		{Name: "id", Kind: String}, {Name: "=cmd|' /C calc'!A0", Kind: String},
+		{Name: "delta_ft", Kind: Real, Decimals: 1}, {Name: "tiny", Kind: Real, Decimals: -1},
+		{Name: "rank", Kind: Integer}, {Name: "as_text", Kind: Real, Decimals: 1},
+	}}
+	for _, id := range ids {
+		l.Rows = append(l.Rows, Row{Values: []any{id, "CI", -12.5, -1e-7, -3, "-2.5"}})
+	}
+	return l
+}
+
+// Text that a spreadsheet would evaluate gets a leading single quote; plain
+// numbers and ordinary text are left alone. The trigger characters and the
+// quote prefix are the OWASP "CSV Injection" guidance (= + - @ tab CR).
+func TestWriteCSVFormulaInjection(t *testing.T) {
+	cases := []struct {
+		name, id, want string
+	}{
+		{"hyperlink", `=HYPERLINK("http://x","y")`, `'=HYPERLINK("http://x","y")`},
+		{"plus formula", "+1+1", "'+1+1"},
+		{"minus formula", "-2+3", "'-2+3"},
+		{"at function", "@SUM(A1)", "'@SUM(A1)"},
+		{"tab then formula", "\t=1", "'\t=1"},
+		{"carriage return then formula", "\r=1", "'\r=1"},
+		{"lone minus", "-", "'-"},
+		{"exponent with sign is not plain", "-1e3", "'-1e3"},
+		{"negative decimal", "-12.5", "-12.5"},
+		{"signed integer", "+3", "+3"},
+		{"leading point", "-.5", "-.5"},
+		{"exponent without sign", "1e3", "1e3"},
+		{"ordinary id", "QM-001", "QM-001"},
+		{"empty", "", ""},
+		{"formula later in the text", "P=1", "P=1"},
+		{"unicode", "Ünïcode", "Ünïcode"},
+	}
+	ids := make([]string, len(cases))
+	for i, tc := range cases {
+		ids[i] = tc.id
+	}
+	path := filepath.Join(t.TempDir(), "ranked.csv")
+	if err := WriteCSV(path, csvInjectionLayer(ids)); err != nil {
+		t.Fatal(err)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	recs, err := csv.NewReader(f).ReadAll() // the round trip: encoding/csv sees the quote
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(recs) != len(cases)+1 {
+		t.Fatalf("got %d records, want %d", len(recs), len(cases)+1)
+	}
+	wantHeader := []string{"id", "'=cmd|' /C calc'!A0", "delta_ft", "tiny", "rank", "as_text"}
+	if !reflect.DeepEqual(recs[0], wantHeader) {
+		t.Errorf("header: got %q, want %q", recs[0], wantHeader)
+	}
+	for i, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			rec := recs[i+1]
+			if rec[0] != tc.want {
+				t.Errorf("id %q: got %q, want %q", tc.id, rec[0], tc.want)
+			}
+			// Typed numbers are written as they always were, also in 'g'
+			// form; a numeric string in plain decimal form is unchanged.
+			if want := []string{"CI", "-12.5", "-1e-07", "-3", "-2.5"}; !reflect.DeepEqual(rec[1:], want) {
+				t.Errorf("other fields: got %q, want %q", rec[1:], want)
+			}
+		})
+	}
+}
+
+// GeoJSON is data for GIS programs, not a spreadsheet: its text is written
+// exactly as given.
+func TestWriteGeoJSONKeepsFormulaText(t *testing.T) {
+	ids := []string{`=HYPERLINK("http://x","y")`, "+1+1", "-2+3", "@SUM(A1)", "\t=1", "\r=1"}
+	path := filepath.Join(t.TempDir(), "pipes.geojson")
+	if err := WriteGeoJSON(path, csvInjectionLayer(ids)); err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		Features []struct{ Properties map[string]any }
+	}
+	if err := json.Unmarshal(b, &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.Features) != len(ids) {
+		t.Fatalf("got %d features, want %d", len(doc.Features), len(ids))
+	}
+	for i, id := range ids {
+		if got := doc.Features[i].Properties["id"]; got != id {
+			t.Errorf("feature %d: id %q, want %q unchanged", i+1, got, id)
+		}
+		if _, ok := doc.Features[i].Properties["=cmd|' /C calc'!A0"]; !ok {
+			t.Errorf("feature %d: property name changed: %v", i+1, doc.Features[i].Properties)
+		}
+	}
+}
+
+// Every plain decimal is a number to strconv.ParseFloat, the reference
+// parser here; the reverse does not hold (exponents, "Inf", hex floats).
+func TestIsPlainDecimal(t *testing.T) {
+	cases := []struct {
+		s    string
+		want bool
+	}{
+		{"-12.5", true}, {"+3", true}, {"0", true}, {"-.5", true}, {"7.", true},
+		{"", false}, {"-", false}, {".", false}, {"-.", false}, {"1.2.3", false},
+		{"1e3", false}, {"-1e3", false}, {"1,000", false}, {" 1", false}, {"+-1", false},
+		{"-Inf", false}, {"NaN", false}, {"0x1p3", false}, {"١٢", false},
+	}
+	for _, tc := range cases {
+		t.Run(tc.s, func(t *testing.T) {
+			if got := isPlainDecimal(tc.s); got != tc.want {
+				t.Errorf("isPlainDecimal(%q) = %v, want %v", tc.s, got, tc.want)
+			}
+			if tc.want {
+				if _, err := strconv.ParseFloat(tc.s, 64); err != nil {
+					t.Errorf("%q is plain but ParseFloat rejects it: %v", tc.s, err)
+				}
+			}
+		})
+	}
+}
+
+// FuzzWriteCSVText writes any text as a CSV field and reads it back with
+// encoding/csv: the field must come back as the text itself or as the text
+// behind one single quote, and must never start with a formula character
+// unless it is a plain decimal number (which ParseFloat must accept).
+func FuzzWriteCSVText(f *testing.F) {
+	for _, s := range []string{`=HYPERLINK("http://x","y")`, "+1+1", "-2+3", "@SUM(A1)", "\t=1", "\r=1", "-12.5", "QM-001", "", "a,b\n\"c\""} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		l := &Layer{Columns: []Column{{Name: "id", Kind: String}, {Name: "n", Kind: Integer}},
+			Rows: []Row{{Values: []any{s, -1}}}}
+		var b bytes.Buffer // writeCSV is WriteCSV without the file
+		if err := writeCSV(&b, l); err != nil {
+			t.Fatal(err)
+		}
+		recs, err := csv.NewReader(bytes.NewReader(b.Bytes())).ReadAll()
+		if err != nil {
+			t.Fatalf("encoding/csv cannot read what WriteCSV wrote: %v\n%q", err, b.Bytes())
+		}
+		if len(recs) != 2 || len(recs[1]) != 2 || recs[1][1] != "-1" {
+			t.Fatalf("records %q", recs)
+		}
+		got := recs[1][0]
+		// encoding/csv reads a quoted \r\n as \n (RFC 4180 line breaks).
+		want := strings.ReplaceAll(s, "\r\n", "\n")
+		if got != want && got != "'"+want {
+			t.Fatalf("text %q came back as %q", s, got)
+		}
+		if got != "" && strings.ContainsRune("=+-@\t\r", rune(got[0])) {
+			if _, err := strconv.ParseFloat(got, 64); err != nil {
+				t.Fatalf("text %q is written as %q, which a spreadsheet evaluates", s, got)
+			}
+		}
+	})
 }
