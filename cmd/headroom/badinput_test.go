@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"headroom/gis"
 )
 
 // A small invented network, laid out on a local grid near lon −98.4,
@@ -231,5 +233,81 @@ func TestNoConvergenceWritesNothing(t *testing.T) {
 	}
 	if entries, _ := os.ReadDir(out); len(entries) > 0 {
 		t.Errorf("a failed run wrote %d files", len(entries))
+	}
+}
+
+// A pipe whose geometry is a point stays a row of pipes.shp, as a null
+// shape: a shapefile holds one shape type, and nothing is lost.
+func TestShapefileOutputKeepsEveryPipe(t *testing.T) {
+	dir := writeFixture(t, func(n, s string) string {
+		if n == "headroom.toml" {
+			return s + "[output]\nformats = [\"shp\"]\n"
+		}
+		return s
+	})
+	out := t.TempDir()
+	if code, _, stderr := runHeadroom(t, "run", "--config", filepath.Join(dir, "headroom.toml"), "--out", out); code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	l, err := gis.ReadShapefile(filepath.Join(out, "pipes.shp"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := len(l.Features.Features); n != 9 {
+		t.Fatalf("pipes.shp has %d records, the input 9", n)
+	}
+	if g := l.Features.Features[6].Geometry; g != nil {
+		t.Errorf("record 7 (a Point in the pipe layer) is %v, want a null shape", g)
+	}
+}
+
+// Hostile text from the layers never becomes a spreadsheet formula in the
+// CSV outputs (OWASP CSV-injection guidance: prefix a leading = + - @ tab
+// or CR with '), while the GeoJSON keeps the data exactly as given.
+func TestFormulaLikeIDsAreNeutralised(t *testing.T) {
+	const hostile = `=HYPERLINK("http://x","y")`
+	dir := writeFixture(t, func(n, s string) string {
+		if n == "pipes.geojson" {
+			s = strings.Replace(s, `"id":"P1"`, `"id":"=HYPERLINK(\"http://x\",\"y\")"`, 1)
+			return strings.Replace(s, `"mat":"PVC","yr":2001},"geometry":{"type":"LineString","coordinates":[[-98.399`, `"mat":"@SUM(A1)","yr":2001},"geometry":{"type":"LineString","coordinates":[[-98.399`, 1)
+		}
+		return s
+	})
+	out := t.TempDir()
+	if code, _, stderr := runHeadroom(t, "run", "--config", filepath.Join(dir, "headroom.toml"), "--out", out); code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	var id, mat bool
+	for _, row := range readCSV(t, filepath.Join(out, "ranked.csv"))[1:] {
+		for _, cell := range row {
+			if strings.HasPrefix(cell, "=") || strings.HasPrefix(cell, "@") {
+				t.Errorf("ranked.csv cell %q would run as a formula", cell)
+			}
+		}
+		id = id || row[1] == "'"+hostile
+		mat = mat || row[5] == "'@SUM(A1)"
+	}
+	if !id || !mat {
+		t.Errorf("ranked.csv lacks the neutralised id (%v) or material (%v)", id, mat)
+	}
+	pipes := readGeoJSONProperties(t, filepath.Join(out, "pipes.geojson"))
+	if pipes[0]["pipe_id"] != hostile || pipes[1]["material"] != "@SUM(A1)" {
+		t.Errorf("pipes.geojson must keep the data as given: %v, %v", pipes[0]["pipe_id"], pipes[1]["material"])
+	}
+}
+
+// Infinite or NaN quantities in the config are refused with the key named.
+func TestConfigRejectsNonFinite(t *testing.T) {
+	for _, extra := range []string{"[criteria]\nmax_velocity_fps = inf\n", "[network]\nsnap_tolerance_ft = nan\n"} {
+		dir := writeFixture(t, func(n, s string) string {
+			if n == "headroom.toml" {
+				return s + extra
+			}
+			return s
+		})
+		code, _, stderr := runHeadroom(t, "run", "--config", filepath.Join(dir, "headroom.toml"), "--out", t.TempDir())
+		if code != exitError || !strings.Contains(stderr, "must be a finite number") {
+			t.Errorf("%q: exit %d, stderr %q", extra, code, stderr)
+		}
 	}
 }

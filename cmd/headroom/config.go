@@ -3,6 +3,7 @@ package main
 import (
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -280,7 +281,7 @@ func (c *Config) validate() error {
 	need("demands.fields.demand", c.Demands.Fields.Demand)
 	need("elevations.path", c.Elevations.Path)
 	need("elevations.fields.elevation", c.Elevations.Fields.Elevation)
-	if !(c.Demands.PeakHourFactor > 0) {
+	if !(c.Demands.PeakHourFactor > 0) || math.IsInf(c.Demands.PeakHourFactor, 0) {
 		errs = append(errs, errors.New("demands.peak_hour_factor is required and must be > 0 (peak-hour demand ÷ average-day demand; typically 2.0–4.0; headroom does not guess it)"))
 	}
 	if c.Elevations.Neighbours == 0 {
@@ -390,6 +391,9 @@ func (q quantity) value(s hydraulics.System) (float64, error) {
 }
 
 func (q quantity) check(key string, raw, v float64) (float64, error) {
+	if math.IsNaN(raw) || math.IsInf(raw, 0) {
+		return 0, fmt.Errorf("%s = %g: must be a finite number", key, raw)
+	}
 	if q.positive && !(raw > 0) {
 		return 0, fmt.Errorf("%s = %g: must be > 0", key, raw)
 	}
