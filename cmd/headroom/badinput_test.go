@@ -311,3 +311,25 @@ func TestConfigRejectsNonFinite(t *testing.T) {
 		}
 	}
 }
+
+// Paths in the config are relative to the config file, and may climb out
+// of its folder with "..": the layers of a shared GIS folder are read in
+// place, never copied or written to.
+func TestConfigPathsWithDotDot(t *testing.T) {
+	dir := writeFixture(t, nil)
+	sub := filepath.Join(dir, "runs", "2026")
+	if err := os.MkdirAll(sub, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	cfg := strings.ReplaceAll(badConfig, `path = "`, `path = "../../`)
+	if err := os.WriteFile(filepath.Join(sub, "headroom.toml"), []byte(cfg), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(sub, "out")
+	if code, _, stderr := runHeadroom(t, "run", "--config", filepath.Join(sub, "headroom.toml"), "--out", out); code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	if n := len(readGeoJSONProperties(t, filepath.Join(out, "pipes.geojson"))); n != 9 {
+		t.Errorf("pipes.geojson has %d features, want 9", n)
+	}
+}
