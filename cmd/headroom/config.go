@@ -87,6 +87,7 @@ type DemandLayer struct {
 	CRS            string       `toml:"crs"`
 	Fields         DemandFields `toml:"fields"`
 	PeakHourFactor float64      `toml:"peak_hour_factor"`
+	MaxDayFactor   float64      `toml:"max_day_factor"`
 	WarnDistanceFt *float64     `toml:"warn_distance_ft"`
 	WarnDistanceM  *float64     `toml:"warn_distance_m"`
 }
@@ -201,13 +202,17 @@ type CurveConfig struct {
 // 40 psi at peak hour; the Ten States Standards floor is 20 psi under all
 // conditions, which the fire-flow scenario checks.
 const (
-	defaultSnapToleranceFt  = 0.5
-	defaultSourceSearchFt   = 50
-	defaultWarnDistanceFt   = 1000
-	defaultMaxHeadloss      = 10 // ft per 1,000 ft = m per km
-	defaultMaxVelocityFps   = 5
-	defaultMinPressurePsi   = 40
-	defaultMinDiameterIn    = 6   // Ten States Standards: mains supplying hydrants (DOMAIN.md §3.4)
+	defaultSnapToleranceFt = 0.5
+	defaultSourceSearchFt  = 50
+	defaultWarnDistanceFt  = 1000
+	defaultMaxHeadloss     = 10 // ft per 1,000 ft = m per km
+	defaultMaxVelocityFps  = 5
+	defaultMinPressurePsi  = 40
+	defaultMinDiameterIn   = 6 // Ten States Standards: mains supplying hydrants (DOMAIN.md §3.4)
+	// defaultMaxDayFactor is max day ÷ average day: the upper end of the
+	// usual 1.5–2.0 (common practice; DOMAIN.md §3.6 gives the range from
+	// memory of AWWA M32 and a confirmed district standard of 2.0).
+	defaultMaxDayFactor     = 2.0
 	defaultDesignC          = 130 // conservative long-term C for new PVC or lined DI (common practice)
 	defaultNeighbours       = 4
 	defaultPower            = 2
@@ -283,6 +288,14 @@ func (c *Config) validate() error {
 	need("elevations.fields.elevation", c.Elevations.Fields.Elevation)
 	if !(c.Demands.PeakHourFactor > 0) || math.IsInf(c.Demands.PeakHourFactor, 0) {
 		errs = append(errs, errors.New("demands.peak_hour_factor is required and must be > 0 (peak-hour demand ÷ average-day demand; typically 2.0–4.0; headroom does not guess it)"))
+	}
+	if c.Demands.PeakHourFactor > 0 {
+		if c.Demands.MaxDayFactor == 0 {
+			c.Demands.MaxDayFactor = math.Min(defaultMaxDayFactor, c.Demands.PeakHourFactor)
+		}
+		if f := c.Demands.MaxDayFactor; !(f >= 1) || math.IsInf(f, 0) || f > c.Demands.PeakHourFactor {
+			errs = append(errs, fmt.Errorf("demands.max_day_factor = %g: must be at least 1 and at most peak_hour_factor", f))
+		}
 	}
 	if c.Elevations.Neighbours == 0 {
 		c.Elevations.Neighbours = defaultNeighbours

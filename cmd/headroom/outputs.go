@@ -186,10 +186,12 @@ func (r *result) isInput(path string) bool {
 }
 
 // pipeColumns are the columns of pipes.geojson and, after rank, of ranked.csv.
+// The plain hydraulic columns are peak hour, the scenario the criteria and
+// scores read; avg_day_ and max_day_ columns give the other scenarios.
 func (r *result) pipeColumns() []gis.Column {
 	s := r.cfg.system()
 	d, l, q, v, h := s.DiameterSuffix(), s.LengthSuffix(), s.FlowSuffix(), s.VelocitySuffix(), s.UnitHeadLossSuffix()
-	return []gis.Column{
+	cols := []gis.Column{
 		{Name: "pipe_id", Kind: gis.String},
 		{Name: "feature", Kind: gis.Integer},
 		{Name: "rank", Kind: gis.Integer},
@@ -209,55 +211,81 @@ func (r *result) pipeColumns() []gis.Column {
 		{Name: "capacity_" + q, Kind: gis.Real, Decimals: 1},
 		{Name: "deficit_" + q, Kind: gis.Real, Decimals: 1},
 		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 0},
-		{Name: "score_headloss", Kind: gis.Real, Decimals: 1},
-		{Name: "score_velocity", Kind: gis.Real, Decimals: 1},
-		{Name: "score_c_factor", Kind: gis.Real, Decimals: 1},
-		{Name: "score_deficit", Kind: gis.Real, Decimals: 1},
-		{Name: "reasons", Kind: gis.String},
 	}
+	for _, sc := range r.otherScenarios() {
+		cols = append(cols, gis.Column{Name: sc.prefix + "flow_" + q, Kind: gis.Real, Decimals: 2},
+			gis.Column{Name: sc.prefix + "headloss_" + h, Kind: gis.Real, Decimals: 3})
+	}
+	return append(cols,
+		gis.Column{Name: "score_headloss", Kind: gis.Real, Decimals: 1},
+		gis.Column{Name: "score_velocity", Kind: gis.Real, Decimals: 1},
+		gis.Column{Name: "score_c_factor", Kind: gis.Real, Decimals: 1},
+		gis.Column{Name: "score_deficit", Kind: gis.Real, Decimals: 1},
+		gis.Column{Name: "reasons", Kind: gis.String},
+	)
+}
+
+// otherScenarios are the scenarios reported beside peak hour.
+func (r *result) otherScenarios() []scenario {
+	return r.scenarios[:len(r.scenarios)-1]
 }
 
 // pipeLayer has one row per input pipe, in input order: nothing is lost.
 func (r *result) pipeLayer() *gis.Layer {
 	s := r.cfg.system()
-	l := &gis.Layer{Name: "pipes", Columns: r.pipeColumns(), Rows: make([]gis.Row, len(r.pipes))}
+	cols := r.pipeColumns()
+	l := &gis.Layer{Name: "pipes", Columns: cols, Rows: make([]gis.Row, len(r.pipes))}
 	for i, p := range r.pipes {
-		sc := r.scores[i]
-		status := "open"
-		if p.Closed {
-			status = "closed"
+		v := r.pipeValues(i, p, s)
+		row := make([]any, len(cols))
+		for k, c := range cols {
+			row[k] = v[c.Name]
 		}
-		var year any
-		if p.InstallYear > 0 {
-			year = p.InstallYear
-		}
-		vals := []any{
-			p.ID, p.Index, nil, nil, status, p.Material, year,
-			s.Diameter(p.Diameter), s.Length(p.Length), r.cFactor[i], r.cBasis[i],
-			nil, nil, // nodes
-			nil, nil, nil, nil, nil, nil, // hydraulics
-			nil, nil, nil, nil, // sub-scores
-			sc.Reasons,
-		}
-		if len(r.parts[i]) > 0 {
-			e := r.topo.Ends[i]
-			vals[11], vals[12] = r.net.Nodes[e[0]].ID, r.net.Nodes[e[1]].ID
-			if !r.pipeUnsupplied(i) {
-				c := r.checks[r.governing(i)] // a split pipe reports its part with the largest friction slope
-				vals[13], vals[14], vals[15] = s.Flow(c.Flow), s.Velocity(c.Velocity), s.UnitHeadLoss(c.Slope)
-				vals[16], vals[17] = s.Flow(c.Capacity), s.Flow(c.Deficit)
-				if c.Required.Nominal > 0 {
-					vals[18] = s.Diameter(c.Required.Nominal)
-				}
-			}
-		}
-		if sc.Scored {
-			vals[2], vals[3] = sc.Rank, sc.Score
-			vals[19], vals[20], vals[21], vals[22] = sc.HeadLoss, sc.Velocity, sc.CFactor, sc.Deficit
-		}
-		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: vals}
+		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: row}
 	}
 	return l
+}
+
+// pipeValues are one pipe's output values by column name; a missing name
+// is a null.
+func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]any {
+	d, l, q, vs, h := s.DiameterSuffix(), s.LengthSuffix(), s.FlowSuffix(), s.VelocitySuffix(), s.UnitHeadLossSuffix()
+	sc := r.scores[i]
+	status := "open"
+	if p.Closed {
+		status = "closed"
+	}
+	v := map[string]any{
+		"pipe_id": p.ID, "feature": p.Index, "status": status, "material": p.Material,
+		"diameter_" + d: s.Diameter(p.Diameter), "length_" + l: s.Length(p.Length),
+		"c_factor": r.cFactor[i], "c_basis": r.cBasis[i], "reasons": sc.Reasons,
+	}
+	if p.InstallYear > 0 {
+		v["install_year"] = p.InstallYear
+	}
+	if len(r.parts[i]) > 0 {
+		e := r.topo.Ends[i]
+		v["from_node"], v["to_node"] = r.net.Nodes[e[0]].ID, r.net.Nodes[e[1]].ID
+		if !r.pipeUnsupplied(i) {
+			j := r.governing(i) // a split pipe reports its part with the largest friction slope
+			c := r.checks[j]
+			v["flow_"+q], v["velocity_"+vs], v["headloss_"+h] = s.Flow(c.Flow), s.Velocity(c.Velocity), s.UnitHeadLoss(c.Slope)
+			v["capacity_"+q], v["deficit_"+q] = s.Flow(c.Capacity), s.Flow(c.Deficit)
+			if c.Required.Nominal > 0 {
+				v["required_diameter_"+d] = s.Diameter(c.Required.Nominal)
+			}
+			for _, o := range r.otherScenarios() {
+				np := r.net.Pipes[j]
+				v[o.prefix+"flow_"+q] = s.Flow(o.sol.Flow[j])
+				v[o.prefix+"headloss_"+h] = s.UnitHeadLoss(hydraulics.FrictionSlope(o.sol.Flow[j], np.Diameter, np.C))
+			}
+		}
+	}
+	if sc.Scored {
+		v["rank"], v["score"] = sc.Rank, sc.Score
+		v["score_headloss"], v["score_velocity"], v["score_c_factor"], v["score_deficit"] = sc.HeadLoss, sc.Velocity, sc.CFactor, sc.Deficit
+	}
+	return v
 }
 
 // rankedLayer is the scored rows of the pipe layer, rank 1 first.
@@ -280,7 +308,8 @@ func (r *result) rankedLayer(pipes *gis.Layer) *gis.Layer {
 	return l
 }
 
-// nodeLayer has one row per node with its peak-hour head and pressure.
+// nodeLayer has one row per node with its head and pressure: the plain
+// columns at peak hour, avg_day_ and max_day_ columns for the other two.
 func (r *result) nodeLayer() *gis.Layer {
 	s := r.cfg.system()
 	e, q, p := s.LengthSuffix(), s.FlowSuffix(), s.PressureSuffix()
@@ -295,6 +324,10 @@ func (r *result) nodeLayer() *gis.Layer {
 		{Name: "pressure_" + p, Kind: gis.Real, Decimals: 2},
 		{Name: "below_min_pressure", Kind: gis.String},
 	}}
+	for _, sc := range r.otherScenarios() {
+		layer.Columns = append(layer.Columns, gis.Column{Name: sc.prefix + "head_" + e, Kind: gis.Real, Decimals: 3},
+			gis.Column{Name: sc.prefix + "pressure_" + p, Kind: gis.Real, Decimals: 2})
+	}
 	sourceOf := make(map[int]string, len(r.supplies))
 	for _, sp := range r.supplies {
 		sourceOf[sp.Node] = r.sources[sp.Source].ID
@@ -317,11 +350,16 @@ func (r *result) nodeLayer() *gis.Layer {
 		if id, ok := sourceOf[i]; ok {
 			src = id
 		}
-		layer.Rows = append(layer.Rows, gis.Row{
-			Geometry: r.topo.Nodes[i].At,
-			Values: []any{n.ID, kind, src, s.Length(n.Elevation), s.Flow(n.Demand * hydraulics.Flow(factor)),
-				s.Flow(n.Demand), head, pres, below},
-		})
+		vals := []any{n.ID, kind, src, s.Length(n.Elevation), s.Flow(n.Demand * hydraulics.Flow(factor)),
+			s.Flow(n.Demand), head, pres, below}
+		for _, sc := range r.otherScenarios() {
+			var head, pres any
+			if h := sc.sol.Head[i]; !math.IsNaN(float64(h)) {
+				head, pres = s.Head(h), s.Pressure(hydraulics.NodePressure(n, h))
+			}
+			vals = append(vals, head, pres)
+		}
+		layer.Rows = append(layer.Rows, gis.Row{Geometry: r.topo.Nodes[i].At, Values: vals})
 	}
 	return layer
 }

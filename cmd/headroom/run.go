@@ -100,7 +100,8 @@ type result struct {
 	parts      [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
 	cFactor    []float64
 	cBasis     []string
-	sol        *hydraulics.Solution
+	sol        *hydraulics.Solution // peak hour, the scenario the criteria read
+	scenarios  []scenario           // average day, max day, peak hour
 	checks     []hydraulics.PipeCheck
 	lowNodes   []int  // junctions below the pressure criterion, ascending
 	belowMin   []bool // per node: in lowNodes
@@ -154,22 +155,10 @@ func analyse(in *inputs) (*result, error) {
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
 	r.parts = topo.Parts
 
-	sol, err := hydraulics.Solve(r.net, &hydraulics.Options{
-		DemandFactor:  cfg.Demands.PeakHourFactor,
-		Tolerance:     cfg.Solver.Tolerance,
-		MaxIterations: cfg.Solver.MaxIterations,
-	})
-	if err != nil {
-		var nc *hydraulics.NotConvergedError
-		if errors.As(err, &nc) {
-			return nil, solverError{r.notConverged(nc)}
-		}
-		if errors.Is(err, hydraulics.ErrNoSupply) {
-			return nil, solverError{r.noSupply()}
-		}
-		return nil, solverError{fmt.Errorf("peak-hour solve: %w", err)}
+	if err := r.solveScenarios(); err != nil {
+		return nil, err
 	}
-	r.sol = sol
+	sol := r.sol
 	r.noteUnsupplied()
 	r.checks = hydraulics.CheckPipes(r.net, sol, r.limits)
 	r.lowNodes = hydraulics.LowPressure(r.net, sol, r.limits)
@@ -282,9 +271,52 @@ func agedC(cfg *Config, r *result) ([]float64, []string) {
 	return c, basis
 }
 
+// scenario is one steady state the run solves. Peak hour is the one the
+// pipe criteria and the scores read; average day and max day are reported
+// beside it (DOMAIN.md §3.5: peak hour for head loss and pressure, max day
+// as the background of fire flow, average day for high static pressure).
+type scenario struct {
+	name   string  // "average day", "max day", "peak hour"
+	prefix string  // output column prefix; "" for peak hour, whose columns keep the plain names
+	factor float64 // demand ÷ average-day demand
+	sol    *hydraulics.Solution
+}
+
+// solveScenarios solves average day, max day and peak hour, each from its
+// peaking factor, and keeps peak hour as r.sol.
+func (r *result) solveScenarios() error {
+	cfg := r.cfg
+	r.scenarios = []scenario{
+		{name: "average day", prefix: "avg_day_", factor: 1},
+		{name: "max day", prefix: "max_day_", factor: cfg.Demands.MaxDayFactor},
+		{name: "peak hour", prefix: "", factor: cfg.Demands.PeakHourFactor},
+	}
+	for i := range r.scenarios {
+		sc := &r.scenarios[i]
+		sol, err := hydraulics.Solve(r.net, &hydraulics.Options{
+			DemandFactor:  sc.factor,
+			Tolerance:     cfg.Solver.Tolerance,
+			MaxIterations: cfg.Solver.MaxIterations,
+		})
+		if err != nil {
+			var nc *hydraulics.NotConvergedError
+			if errors.As(err, &nc) {
+				return solverError{r.notConverged(sc.name, nc)}
+			}
+			if errors.Is(err, hydraulics.ErrNoSupply) {
+				return solverError{r.noSupply()}
+			}
+			return solverError{fmt.Errorf("%s solve: %w", sc.name, err)}
+		}
+		sc.sol = sol
+	}
+	r.sol = r.scenarios[len(r.scenarios)-1].sol
+	return nil
+}
+
 // notConverged explains a failed solve in the run's units, naming the pipe
 // with the largest head-balance residual by its id and feature.
-func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
+func (r *result) notConverged(name string, nc *hydraulics.NotConvergedError) error {
 	s := r.cfg.system()
 	where := ""
 	if nc.Pipe >= 0 && nc.Pipe < len(r.net.Pipes) {
@@ -293,9 +325,9 @@ func (r *result) notConverged(nc *hydraulics.NotConvergedError) error {
 			where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
 		}
 	}
-	return fmt.Errorf("the peak-hour solve did not converge in %d Newton iteration%s (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
+	return fmt.Errorf("the %s solve did not converge in %d Newton iteration%s (relative flow change %.2g, largest head-balance residual %.3g %s%s); no results were written. "+
 		"Raise solver.max_iterations, or check that pipe's diameter, length and C, closed pipes that split the network, and the source grades",
-		nc.Iterations, plural(nc.Iterations), nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
+		name, nc.Iterations, plural(nc.Iterations), nc.RelativeFlowChange, s.Head(nc.MaxHeadResidual), s.LengthLabel(), where)
 }
 
 // plural returns "s" unless n is 1.

@@ -72,7 +72,7 @@ func TestBuiltInRunPrintsSummaryAndWritesFourFiles(t *testing.T) {
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, stderr)
 	}
-	for _, want := range []string{"converged in", "mass balance", "Top ten", "Cautions", "planning-level screening", "licensed professional engineer"} {
+	for _, want := range []string{"average day", "max day", "peak hour", "relative flow change", "= demand", "Top ten", "Cautions", "planning-level screening", "licensed professional engineer"} {
 		if !strings.Contains(strings.ToLower(stdout), strings.ToLower(want)) {
 			t.Errorf("summary lacks %q:\n%s", want, stdout)
 		}

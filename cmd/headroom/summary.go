@@ -68,15 +68,11 @@ func (r *result) summariseInputs(p func(string, ...any)) {
 	p("%s\n", t.String())
 }
 
-func (r *result) summariseSolve(p func(string, ...any)) {
+// pressureRange returns the lowest and highest junction pressure of a
+// solution, in the run's units.
+func (r *result) pressureRange(sol *hydraulics.Solution) (lo, hi float64) {
 	s := r.cfg.system()
-	sol := r.sol
-	p("Peak hour (%.2f × average day), Global Gradient Algorithm\n", r.cfg.Demands.PeakHourFactor)
-	p("  converged in %d iterations: relative flow change %.1e, largest head-balance residual %.1e %s\n",
-		sol.Iterations, sol.RelativeFlowChange, s.Head(sol.MaxHeadResidual), s.LengthLabel())
-	p("  mass balance: sources supply %.2f %s, demand %.2f %s, largest node imbalance %.1e %s\n",
-		s.Flow(sol.Supply), s.FlowLabel(), s.Flow(sol.Demand), s.FlowLabel(), s.Flow(sol.MaxContinuityResidual), s.FlowLabel())
-	lo, hi := math.Inf(1), math.Inf(-1)
+	lo, hi = math.Inf(1), math.Inf(-1)
 	for i, n := range r.net.Nodes {
 		if n.Fixed || math.IsNaN(float64(sol.Head[i])) {
 			continue
@@ -84,11 +80,26 @@ func (r *result) summariseSolve(p func(string, ...any)) {
 		v := s.Pressure(hydraulics.NodePressure(n, sol.Head[i]))
 		lo, hi = math.Min(lo, v), math.Max(hi, v)
 	}
+	return lo, hi
+}
+
+func (r *result) summariseSolve(p func(string, ...any)) {
+	s := r.cfg.system()
+	sol := r.sol
+	p("Scenarios (Global Gradient Algorithm; the criteria and scores read peak hour)\n")
+	for _, sc := range r.scenarios {
+		o := sc.sol
+		lo, hi := r.pressureRange(o)
+		p("  %-12s %.2f × average day: %d iterations, relative flow change %.1e, largest head-balance residual %.1e %s;\n",
+			sc.name, sc.factor, o.Iterations, o.RelativeFlowChange, s.Head(o.MaxHeadResidual), s.LengthLabel())
+		p("  %-12s supply %.2f %s = demand %.2f %s (largest node imbalance %.1e %s); pressure %.1f to %.1f %s\n", "",
+			s.Flow(o.Supply), s.FlowLabel(), s.Flow(o.Demand), s.FlowLabel(), s.Flow(o.MaxContinuityResidual), s.FlowLabel(),
+			lo, hi, s.PressureLabel())
+	}
 	if len(sol.Unsupplied) > 0 {
 		p("  %d nodes are in parts of the network no source reaches (see problems.csv)\n", len(sol.Unsupplied))
 	}
-	p("  junction pressure %.1f to %.1f %s; %d junctions below %.1f %s\n",
-		lo, hi, s.PressureLabel(), len(r.lowNodes), s.Pressure(r.limits.MinPressure), s.PressureLabel())
+	p("  peak hour: %d junctions below %.1f %s\n", len(r.lowNodes), s.Pressure(r.limits.MinPressure), s.PressureLabel())
 	var slope, vel, def int
 	var deficit hydraulics.Flow
 	for i, sc := range r.scores {

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 
@@ -78,6 +79,8 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("path = %s\n", str(c.Demands.Path))
 	layerKeys(c.Demands.Table, c.Demands.CRS)
 	p("peak_hour_factor = %s  # required: peak-hour ÷ average-day demand (typically 2.0–4.0); no default\n", num(c.Demands.PeakHourFactor))
+	p("max_day_factor = %s  # max-day ÷ average-day demand (typically 1.5–2.0); default 2.0, at most peak_hour_factor\n",
+		num(orDefaultFloat(c.Demands.MaxDayFactor, math.Min(defaultMaxDayFactor, c.Demands.PeakHourFactor))))
 	q(c.warnDistance(), "a demand point farther than this from its node is listed in problems.csv")
 	p("[demands.fields]\n")
 	p("id = %s\ndemand = %s  # required, average day\n", str(df.ID), str(df.Demand))
