@@ -32,10 +32,11 @@ func quillmere(t testing.TB) *Town {
 func layers(tw *Town) map[string]*geojson.FeatureCollection {
 	return map[string]*geojson.FeatureCollection{
 		"pipes": tw.Pipes, "sources": tw.Sources, "demands": tw.Demands, "elevations": tw.Elevations,
+		"hydrants": tw.Hydrants,
 	}
 }
 
-var layerNames = []string{"pipes", "sources", "demands", "elevations"}
+var layerNames = []string{"pipes", "sources", "demands", "elevations", "hydrants"}
 
 func marshal(t *testing.T, fc *geojson.FeatureCollection) []byte {
 	t.Helper()
@@ -263,6 +264,7 @@ func TestUniqueIDs(t *testing.T) {
 		fc          *geojson.FeatureCollection
 	}{
 		{"pipes", PipeID, tw.Pipes}, {"sources", SourceID, tw.Sources}, {"demands", DemandID, tw.Demands},
+		{"hydrants", HydrantID, tw.Hydrants},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			seen := map[string]bool{}
@@ -317,6 +319,7 @@ func TestSchema(t *testing.T) {
 		SourceKind: "s", SourceZone: "s"})
 	checkSchema(t, tw.Demands, "Point", map[string]string{DemandID: "s", DemandADD: "n", DemandUse: "s"})
 	checkSchema(t, tw.Elevations, "Point", map[string]string{ElevationValue: "n"})
+	checkSchema(t, tw.Hydrants, "Point", map[string]string{HydrantID: "s", HydrantNeeded: "n", HydrantZone: "s"})
 	for _, f := range tw.Pipes.Features {
 		if s := f.Properties[PipeStatus]; s != StatusOpen && s != StatusClosed {
 			t.Fatalf("%s: status %q", f.Properties[PipeID], s)

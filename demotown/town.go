@@ -30,6 +30,10 @@ const (
 	DemandUse = "use_class" // "residential", "commercial", "school", ...
 
 	ElevationValue = "elev_ft" // ground elevation, feet above the vertical datum
+
+	HydrantID     = "hyd_no"     // text, unique, e.g. "QH-00042"
+	HydrantNeeded = "ff_req_gpm" // needed fire flow, US gallons per minute
+	HydrantZone   = "zone"       // district of the main it stands on
 )
 
 // Pipe status values.
@@ -53,7 +57,7 @@ type Options struct {
 	Seed  uint64 // 0 means 1
 }
 
-// Town is a generated town: four GeoJSON layers in lon/lat (RFC 7946) and
+// Town is a generated town: five GeoJSON layers in lon/lat (RFC 7946) and
 // the figures an analysis of it needs.
 type Town struct {
 	Name           string  // "Quillmere"
@@ -64,6 +68,11 @@ type Town struct {
 	// the far end of each transmission main; Demands are service points
 	// set back from the main that serves them; Elevations are spot heights.
 	Pipes, Sources, Demands, Elevations *geojson.FeatureCollection
+	// Hydrants are points at pipe end vertices (or a few feet off one, on
+	// their lateral) about every 400–500 ft along the mains, with the
+	// needed fire flow of the blocks they serve. They come from a random
+	// stream of their own: the other layers are the same with or without them.
+	Hydrants *geojson.FeatureCollection
 }
 
 // Town figures.
@@ -108,5 +117,6 @@ func Generate(opt Options) (*Town, error) {
 		Sources:        g.sourceLayer(),
 		Demands:        g.demandLayer(),
 		Elevations:     g.elevationLayer(),
+		Hydrants:       g.hydrantLayer(),
 	}, nil
 }
