@@ -24,6 +24,28 @@ type Pipe struct {
 	// LowPressure marks a pipe with an end node below the pressure
 	// criterion. It is mentioned in the reasons and not scored.
 	LowPressure bool
+	// FireFlow, when not nil, is the hydrant whose fire-flow shortfall this
+	// main is charged with (it carries that fire flow at one of the
+	// highest unit head losses). The deficit sub-score reads the larger of
+	// the capacity deficit and the fire-flow shortfall.
+	FireFlow *FireFlowShortfall
+}
+
+// FireFlowShortfall is a hydrant that cannot deliver its needed fire flow
+// at the residual criterion.
+type FireFlowShortfall struct {
+	Hydrant   string
+	Available hydraulics.Flow
+	Needed    hydraulics.Flow
+}
+
+// Fraction is the share of the needed flow that is missing:
+// (Needed − Available) / Needed, 0 when nothing is missing.
+func (f *FireFlowShortfall) Fraction() float64 {
+	if f == nil || !(f.Needed > 0) || f.Available >= f.Needed {
+		return 0
+	}
+	return float64((f.Needed - f.Available) / f.Needed)
 }
 
 // Result is one pipe's score and rank.
@@ -111,7 +133,7 @@ func score(p Pipe, cfg Config, lim hydraulics.Limits) Result {
 		HeadLoss: cfg.HeadLoss.Score(math.Abs(p.Check.Slope)),
 		Velocity: cfg.Velocity.Score(math.Abs(float64(p.Check.Velocity))),
 		CFactor:  cfg.CFactor.Score(p.C),
-		Deficit:  cfg.Deficit.Score(deficitFraction(p.Check)),
+		Deficit:  cfg.Deficit.Score(math.Max(deficitFraction(p.Check), p.FireFlow.Fraction())),
 	}
 	w := cfg.Weights
 	r.Score = (w.HeadLoss*r.HeadLoss + w.Velocity*r.Velocity + w.CFactor*r.CFactor + w.Deficit*r.Deficit) / w.Sum()

@@ -42,6 +42,10 @@ func reasons(p Pipe, r Result, cfg Config, lim hydraulics.Limits) string {
 			"carries " + strconv.FormatFloat(times, 'f', 2, 64) + "× its capacity at " + headLossText(u, lim.MaxSlope) +
 				" (deficit " + flowText(u, ck.Deficit) + ")"})
 	}
+	if f := p.FireFlow; f.Fraction() > 0 {
+		scored = append(scored, reason{w.Deficit * cfg.Deficit.Score(f.Fraction()),
+			"limits fire flow at hydrant " + f.Hydrant + " (" + flowText(u, f.Available) + " of " + flowText(u, f.Needed) + " needed)"})
+	}
 	if ck.OverVelocity {
 		v := hydraulics.Velocity(math.Abs(float64(ck.Velocity)))
 		scored = append(scored, reason{w.Velocity * r.Velocity,
@@ -57,8 +61,12 @@ func reasons(p Pipe, r Result, cfg Config, lim hydraulics.Limits) string {
 	for _, s := range scored {
 		parts = append(parts, s.text)
 	}
-	fails := ck.OverSlope || ck.OverVelocity || ck.Deficit > 0
-	if fails {
+	peakFails := ck.OverSlope || ck.OverVelocity || ck.Deficit > 0
+	fails := peakFails || p.FireFlow.Fraction() > 0
+	// The cure size is sized for the peak-hour flow, so it is named only
+	// when a peak-hour criterion fails; a fire-flow cure is sized by
+	// re-solving with the fire flow (not done here).
+	if peakFails {
 		if t := cureText(u, p); t != "" {
 			parts = append(parts, t)
 		}

@@ -1,6 +1,7 @@
 package scoring
 
 import (
+	"math"
 	"testing"
 
 	"headroom/hydraulics"
@@ -112,5 +113,28 @@ func TestReasons(t *testing.T) {
 				t.Errorf("reasons\n got %q\nwant %q", got, tc.want)
 			}
 		})
+	}
+}
+
+// A main charged with a hydrant's fire-flow shortfall: 640 of 1,000 gpm
+// available is 36 % short, which the deficit breakpoints (0 → 0, 1.0 →
+// 100) score 36.0, weighted 0.30 × 36.0 = 10.8 of the score; the reason
+// names the hydrant, and no peak-hour cure size is claimed for it.
+func TestFireFlowShortfall(t *testing.T) {
+	p := passing("M-9", 130)
+	p.FireFlow = &FireFlowShortfall{Hydrant: "H-12", Available: 640 * hydraulics.USGallonPerMinute, Needed: 1000 * hydraulics.USGallonPerMinute}
+	res, err := Rank([]Pipe{p}, DefaultConfig(), usLimits())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := res[0].Deficit; math.Abs(got-36) > 1e-9 {
+		t.Errorf("deficit sub-score %.4f, want 36", got)
+	}
+	if want := "limits fire flow at hydrant H-12 (640 gpm of 1000 gpm needed)"; res[0].Reasons != want {
+		t.Errorf("reasons %q, want %q", res[0].Reasons, want)
+	}
+	var none *FireFlowShortfall
+	if none.Fraction() != 0 || (&FireFlowShortfall{Available: 2, Needed: 1}).Fraction() != 0 {
+		t.Error("a nil or met fire flow must have no shortfall")
 	}
 }
