@@ -24,6 +24,14 @@ type Pipe struct {
 	Diameter Length  // inside diameter
 	C        float64 // Hazen-Williams C in use (already aged), dimensionless
 	Closed   bool    // a closed valve or an out-of-service main carries no flow
+	// Pump, when non-nil, makes the link a pump that adds the head
+	// h = A − B·Q^C for flow Q ≥ 0 from From to To, with no friction; flow
+	// from To to From is blocked as by a check valve. Length, Diameter and C
+	// are ignored (and not validated) for a pump.
+	Pump *PumpCurve
+	// CheckValve lets the pipe carry flow only from From to To: when the
+	// grades would push flow backwards the link closes.
+	CheckValve bool
 }
 
 // Network is the node–link model a Solve works on.

@@ -1,0 +1,368 @@
+package hydraulics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
+)
+
+// FireFlowOptions controls FireFlow. The zero value is valid.
+type FireFlowOptions struct {
+	// Residual is the pressure that the hydrant and every other checked
+	// junction must keep. Zero means 20 psi, the residual at which NFPA 291
+	// rates hydrants (DOMAIN.md §4.3).
+	Residual Pressure
+	// Zone is a zone number per node. The junctions with the hydrant's
+	// number are checked; nil means every supplied junction is.
+	Zone []int
+	// Ceiling is the largest extra demand tried. Zero means 10,000 gpm.
+	Ceiling Flow
+	// Tolerance is the bracket width at which the search stops: the true
+	// available flow lies within Tolerance above the reported one. Zero
+	// means 1 gpm.
+	Tolerance Flow
+	// Workers is the number of hydrants searched in parallel, each by its
+	// own clone of the Solver. Zero means runtime.GOMAXPROCS(0).
+	Workers int
+}
+
+// FireFlowResult is the available fire flow at one hydrant.
+type FireFlowResult struct {
+	Node int // the hydrant's node
+	// Available is the largest extra demand at Node for which every checked
+	// junction keeps at least FireFlowOptions.Residual; 0 when even the
+	// background demand leaves one below it.
+	Available Flow
+	// Limiting is the checked junction whose pressure limits Available
+	// (the first to fall below the residual just above it; it may be Node).
+	Limiting int
+	// Residual is the pressure at Node with Available drawn there.
+	Residual Pressure
+	// AtCeiling reports that Available is FireFlowOptions.Ceiling and the
+	// criterion still held there.
+	AtCeiling bool
+	// Solves is the number of network solves done for this hydrant.
+	Solves int
+	// Err is set when the hydrant is not a supplied junction or a solve
+	// failed; the other fields are then not to be reported.
+	Err error
+}
+
+// Defaults of FireFlowOptions and the search.
+const (
+	defaultFireResidual  = 20 * PoundPerSquareInch
+	defaultFireCeiling   = 10000 * USGallonPerMinute
+	defaultFireTolerance = 1 * USGallonPerMinute
+	// fireTestFlow is the flow of the first trial solve, a typical
+	// hydrant-test flow (common practice).
+	fireTestFlow = 1000 * USGallonPerMinute
+	// maxFireSolves caps the solves of one hydrant's search.
+	maxFireSolves = 60
+)
+
+// FireFlow finds, for each hydrant node, the available fire flow: the
+// largest extra demand Q at the node, on top of the background demand, for
+// which the pressure p_i = γ·(H_i − z_i) stays ≥ Residual at every checked
+// junction (DOMAIN.md §4.4). demand is the background per node (SI; nil
+// means the network's own times Options.DemandFactor, the max-day demand
+// when the Solver was made with the max-day factor); base is the solution
+// at that demand, used as the zero-flow point and as the warm start of
+// every search. A nil base is solved here from a cold start, and every
+// search solve then starts cold as well.
+//
+// Search, with f(Q) = min_i p_i(Q) − Residual, decreasing in Q:
+//
+//  1. f(0) from base; if f(0) < 0 the available flow is 0.
+//  2. A trial solve at 1,000 gpm (or Ceiling if lower). Because the
+//     pressure drop grows as Q^1.852 (Hazen-Williams), the root predicted
+//     from two points is linear interpolation in u = Q^1.852, which from
+//     the static point is the flow-test relation of NFPA 291:
+//     Q_R = Q_F·(H_R/H_F)^0.54, H_R = f(0), H_F = f(0) − f(Q_F).
+//  3. Until the bracket [lo, hi] (f(lo) ≥ 0 > f(hi)) is narrower than
+//     Tolerance: the next trial is that interpolation between the bracket
+//     ends (or extrapolation from the two highest feasible points, capped at
+//     Ceiling, while no infeasible point is known), kept 0.45·Tolerance
+//     inside the bracket so that a good estimate closes it from both sides;
+//     after three moves of the same end in a row, bisection (regula falsi
+//     with a bisection safeguard).
+//
+// Each search solve warm-starts from flows predicted, linearly in Q, from
+// the hydrant's earlier solves (see warmFlows).
+// Hydrants are divided among Workers, each with its own Solver clone;
+// every hydrant's search depends only on base, so the results, in the order
+// of hydrants, do not depend on Workers. s itself is not used for solving
+// except for a nil base.
+func FireFlow(s *Solver, demand []Flow, base *Solution, hydrants []int, opt FireFlowOptions) []FireFlowResult {
+	results := make([]FireFlowResult, len(hydrants))
+	for k, h := range hydrants {
+		results[k].Node = h
+		results[k].Limiting = -1
+	}
+	fail := func(err error) []FireFlowResult {
+		for k := range results {
+			results[k].Err = err
+		}
+		return results
+	}
+	if s == nil {
+		return fail(errors.New("hydraulics: fire flow: nil solver"))
+	}
+	o, err := opt.withDefaults(len(s.g.net.Nodes))
+	if err != nil {
+		return fail(err)
+	}
+	background := make([]Flow, len(s.g.net.Nodes))
+	if demand == nil {
+		for i, d := range s.g.demand0 {
+			background[i] = Flow(d)
+		}
+	} else {
+		if len(demand) != len(background) {
+			return fail(fmt.Errorf("hydraulics: fire flow: %d demands for %d nodes", len(demand), len(background)))
+		}
+		copy(background, demand)
+	}
+	cold := base == nil
+	if cold {
+		if base, err = s.Solve(background, nil); err != nil {
+			return fail(fmt.Errorf("hydraulics: fire flow: background solve: %w", err))
+		}
+	}
+	if len(base.Head) != len(background) || len(base.Flow) != len(s.g.net.Pipes) {
+		return fail(errors.New("hydraulics: fire flow: base solution does not match the network"))
+	}
+	workers := min(o.Workers, len(hydrants))
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			f := &fireSearch{s: s.Clone(), opt: o, base: base, cold: cold,
+				demand: make([]Flow, len(background)), background: background}
+			for {
+				k := int(next.Add(1) - 1)
+				if k >= len(hydrants) {
+					return
+				}
+				results[k] = f.run(hydrants[k])
+			}
+		}()
+	}
+	wg.Wait()
+	return results
+}
+
+// withDefaults checks o against a network of nn nodes and fills defaults.
+func (o FireFlowOptions) withDefaults(nn int) (FireFlowOptions, error) {
+	switch {
+	case o.Residual < 0 || !isFinite(float64(o.Residual)):
+		return o, fmt.Errorf("hydraulics: fire flow: residual %g Pa is not a finite number ≥ 0", float64(o.Residual))
+	case o.Ceiling < 0 || !isFinite(float64(o.Ceiling)):
+		return o, fmt.Errorf("hydraulics: fire flow: ceiling %g m³/s is not a finite number ≥ 0", float64(o.Ceiling))
+	case o.Tolerance < 0 || !isFinite(float64(o.Tolerance)):
+		return o, fmt.Errorf("hydraulics: fire flow: tolerance %g m³/s is not a finite number ≥ 0", float64(o.Tolerance))
+	case o.Workers < 0:
+		return o, fmt.Errorf("hydraulics: fire flow: %d workers", o.Workers)
+	case o.Zone != nil && len(o.Zone) != nn:
+		return o, fmt.Errorf("hydraulics: fire flow: %d zone numbers for %d nodes", len(o.Zone), nn)
+	}
+	if o.Residual == 0 {
+		o.Residual = defaultFireResidual
+	}
+	if o.Ceiling == 0 {
+		o.Ceiling = defaultFireCeiling
+	}
+	if o.Tolerance == 0 {
+		o.Tolerance = defaultFireTolerance
+	}
+	if o.Workers == 0 {
+		o.Workers = runtime.GOMAXPROCS(0)
+	}
+	return o, nil
+}
+
+// fireSearch is one worker's state.
+type fireSearch struct {
+	s          *Solver
+	opt        FireFlowOptions
+	base       *Solution
+	cold       bool
+	background []Flow
+	demand     []Flow // background plus the trial flow at the hydrant
+
+	hydrant int
+	warm    *Solution // buffer of the predicted warm-start flows
+	solves  int
+}
+
+// firePoint is one trial: extra flow, margin f = min p − Residual, the
+// junction of that minimum and the solution.
+type firePoint struct {
+	q     float64
+	f     float64
+	worst int
+	sol   *Solution
+}
+
+// run searches one hydrant.
+func (f *fireSearch) run(h int) FireFlowResult {
+	r := FireFlowResult{Node: h, Limiting: -1}
+	g := f.s.g
+	if h < 0 || h >= len(g.net.Nodes) || g.net.Nodes[h].Fixed || !g.supplied[h] {
+		r.Err = fmt.Errorf("hydraulics: fire flow: node %d is not a supplied junction", h)
+		return r
+	}
+	f.hydrant, f.solves = h, 0
+	lo := f.point(0, f.base)
+	var hi firePoint
+	haveHi := false
+	finish := func(err error) FireFlowResult {
+		r.Available = Flow(lo.q)
+		r.Residual = pressureAt(g.net, lo.sol, h)
+		r.Limiting = lo.worst
+		if haveHi {
+			r.Limiting = hi.worst
+		}
+		r.Solves = f.solves
+		if err != nil {
+			r.Err = fmt.Errorf("hydraulics: fire flow at node %d (id %q): %w", h, g.net.Nodes[h].ID, err)
+		}
+		return r
+	}
+	if lo.f < 0 {
+		return finish(nil)
+	}
+	tol, ceiling := float64(f.opt.Tolerance), float64(f.opt.Ceiling)
+	prev := lo // the feasible point below lo, for extrapolation
+	x := min(float64(fireTestFlow), ceiling)
+	lastSide, sameSide := 0, 0
+	for {
+		if f.solves >= maxFireSolves {
+			return finish(fmt.Errorf("bracket still %g gpm wide after %d solves", Flow(hi.q-lo.q).GPM(), f.solves))
+		}
+		p, err := f.trial(x, prev, lo, hi, haveHi)
+		if err != nil {
+			return finish(err)
+		}
+		side := 1
+		if p.f >= 0 {
+			prev, lo, side = lo, p, -1
+		} else {
+			hi, haveHi = p, true
+		}
+		if side == lastSide {
+			sameSide++
+		} else {
+			lastSide, sameSide = side, 1
+		}
+		if !haveHi {
+			if lo.q >= ceiling {
+				r.AtCeiling = true
+				return finish(nil)
+			}
+			// Extrapolate from the two highest feasible points; grow by at
+			// least half when the pressure has not fallen.
+			est := rootInU(prev, lo)
+			if !(est > lo.q) {
+				est = 1.5 * lo.q
+			}
+			x = min(ceiling, max(est+0.45*tol, lo.q+tol))
+			continue
+		}
+		width := hi.q - lo.q
+		if width <= tol {
+			return finish(nil)
+		}
+		d := 0.45 * tol
+		x = rootInU(lo, hi)
+		if sameSide >= 3 || !(x > lo.q && x < hi.q) {
+			x = lo.q + width/2
+		}
+		x = min(max(x, lo.q+d), hi.q-d)
+	}
+}
+
+// trial solves with extra flow q at the hydrant. The warm start is the
+// linear interpolation (or extrapolation) in Q of the pipe flows of the
+// bracket ends, or, before a bracket exists, of the two highest feasible
+// points (see warmFlows).
+func (f *fireSearch) trial(q float64, prev, lo, hi firePoint, haveHi bool) (firePoint, error) {
+	copy(f.demand, f.background)
+	f.demand[f.hydrant] += Flow(q)
+	var warm *Solution
+	if !f.cold {
+		a, b := prev, lo
+		if haveHi {
+			a, b = lo, hi
+		}
+		warm = f.warmFlows(q, a, b)
+	}
+	f.solves++
+	sol, err := f.s.Solve(f.demand, warm)
+	if err != nil {
+		return firePoint{}, fmt.Errorf("solve at %.1f gpm: %w", Flow(q).GPM(), err)
+	}
+	return f.point(q, sol), nil
+}
+
+// warmFlows returns a warm start for extra flow q from the solutions at a
+// and b: Q_j = Q_j(a) + (q − q_a)·(Q_j(b) − Q_j(a))/(q_b − q_a), the
+// first-order prediction of each pipe's flow, which leaves a Newton
+// iteration or two fewer than starting from either point. A check valve or
+// pump keeps the flow (and so the status) of the nearer point. With a = b
+// it is b's flows.
+func (f *fireSearch) warmFlows(q float64, a, b firePoint) *Solution {
+	if a.q == b.q {
+		return b.sol
+	}
+	if f.warm == nil {
+		f.warm = &Solution{Flow: make([]Flow, len(b.sol.Flow))}
+	}
+	t := (q - a.q) / (b.q - a.q)
+	near := b
+	if math.Abs(q-a.q) < math.Abs(q-b.q) {
+		near = a
+	}
+	for j, qb := range b.sol.Flow {
+		if f.s.g.check[j] {
+			f.warm.Flow[j] = near.sol.Flow[j]
+			continue
+		}
+		qa := a.sol.Flow[j]
+		f.warm.Flow[j] = qa + Flow(t)*(qb-qa)
+	}
+	return f.warm
+}
+
+// point evaluates the margin of sol over the checked junctions.
+func (f *fireSearch) point(q float64, sol *Solution) firePoint {
+	g := f.s.g
+	zone := f.opt.Zone
+	worst, minP := -1, math.Inf(1)
+	for i, nd := range g.net.Nodes {
+		if nd.Fixed || !g.supplied[i] || (zone != nil && zone[i] != zone[f.hydrant]) {
+			continue
+		}
+		if p := float64(pressureAt(g.net, sol, i)); p < minP || worst < 0 {
+			worst, minP = i, p
+		}
+	}
+	return firePoint{q: q, f: minP - float64(f.opt.Residual), worst: worst, sol: sol}
+}
+
+// rootInU returns the flow at which the line through a and b in the
+// variables (u = Q^1.852, f) reaches f = 0, or NaN when f does not fall
+// from a to b. From a = (0, f₀) it is Q_b·(f₀/(f₀ − f_b))^0.54, the NFPA 291
+// flow-test relation (DOMAIN.md §4.3).
+func rootInU(a, b firePoint) float64 {
+	ua, ub := math.Pow(a.q, HWExponentFlow), math.Pow(b.q, HWExponentFlow)
+	if !(a.f > b.f) || !(ub > ua) {
+		return math.NaN()
+	}
+	u := ua + a.f*(ub-ua)/(a.f-b.f)
+	return math.Pow(u, HWSlopeExponent)
+}

@@ -1,0 +1,81 @@
+package hydraulics
+
+import "testing"
+
+// fireGrid is the street grid of bench_test.go (streetGrid) made fit for a
+// fire-flow sweep: streetGrid's few supplies on the diagonal leave most of
+// a large grid below 20 psi even at average day, so here the grid is
+// divided into square blocks of fireBlock×fireBlock intersections, each a
+// pressure zone (the zone number per node is returned) with a tank at its
+// centre at grade fireTankGrade.
+func fireGrid(side int) (*Network, []int) {
+	net := streetGrid(side, 1, 1)
+	zone := make([]int, len(net.Nodes))
+	blocks := (side + fireBlock - 1) / fireBlock
+	for i := range net.Nodes {
+		row, col := i/side, i%side
+		zone[i] = (row/fireBlock)*blocks + col/fireBlock
+		if row%fireBlock == fireBlock/2 && col%fireBlock == fireBlock/2 {
+			net.Nodes[i].Fixed, net.Nodes[i].Grade = true, fireTankGrade
+		}
+	}
+	return net, zone
+}
+
+const (
+	fireBlock     = 15
+	fireTankGrade = Head(100) // m; elevations are 10–30 m
+)
+
+// benchmarkFireFlow sweeps the hydrants of fireGrid at max-day demand
+// (factor 1.5), each checked against its own zone: every
+// spacing-th junction is a hydrant. It reports hydrants/s, solves/s and
+// pipes/s, the pipes of the network times the solves done per second (the
+// same measure as BenchmarkSolve's pipes/s, so the two compare), with the
+// mean solves and Newton iterations per hydrant. The Solver and the base
+// solution are made once, outside the timing, as a run makes them once for
+// all scenarios.
+func benchmarkFireFlow(b *testing.B, side, spacing int) {
+	net, zone := fireGrid(side)
+	s, err := NewSolver(net, &Options{DemandFactor: 1.5})
+	if err != nil {
+		b.Fatal(err)
+	}
+	base, err := s.Solve(nil, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	var hydrants []int
+	for i, nd := range net.Nodes {
+		if !nd.Fixed && i%spacing == 0 {
+			hydrants = append(hydrants, i)
+		}
+	}
+	b.ReportAllocs()
+	solves := 0
+	for b.Loop() {
+		for _, r := range FireFlow(s, nil, base, hydrants, FireFlowOptions{Zone: zone}) {
+			if r.Err != nil {
+				b.Fatal(r.Err)
+			}
+			solves += r.Solves
+		}
+	}
+	sec := b.Elapsed().Seconds()
+	b.ReportMetric(float64(len(hydrants)), "hydrants")
+	b.ReportMetric(float64(len(hydrants)*b.N)/sec, "hydrants/s")
+	b.ReportMetric(float64(solves)/sec, "solves/s")
+	b.ReportMetric(float64(len(net.Pipes))*float64(solves)/sec, "pipes/s")
+	b.ReportMetric(float64(solves)/float64(len(hydrants)*b.N), "solves/hydrant")
+}
+
+// BenchmarkFireFlow20k: about 20,000 pipes (124×124 grid), every 10th
+// junction a hydrant.
+func BenchmarkFireFlow20k(b *testing.B) { benchmarkFireFlow(b, 124, 10) }
+
+// BenchmarkFireFlow100k: about 130,000 pipes (317×317 grid, as
+// BenchmarkSolve100k), every 1,000th junction a hydrant (100 hydrants): one
+// solve takes about a second here, so a sweep of every 10th junction would
+// take hours; the rates it reports are per hydrant and per solve, from which
+// the time of a full sweep follows.
+func BenchmarkFireFlow100k(b *testing.B) { benchmarkFireFlow(b, 317, 1000) }
