@@ -43,8 +43,9 @@ type OpenOptions struct {
 	// settles a layer that declares nothing and must agree with one that
 	// does.
 	CRS *CRS
-	// Fallback is the coordinate system of any layer that declares none
-	// and has no CRS of its own (the --crs flag); a declared one wins.
+	// Fallback is the coordinate system of any shapefile or GeoPackage
+	// that declares none and has no CRS of its own (the --crs flag); a
+	// declared one wins, and GeoJSON is lon/lat by RFC 7946.
 	Fallback *CRS
 }
 
@@ -184,10 +185,12 @@ func settleCRS(c *Collection, declared *CRS, opt OpenOptions) error {
 		c.CRS = declared
 	case opt.CRS != nil:
 		c.CRS = opt.CRS
+	case c.Format == FormatGeoJSON:
+		// RFC 7946: a GeoJSON file without a crs member is WGS 84 lon/lat,
+		// so the --crs fallback never applies to it.
+		c.CRS = CRS84
 	case opt.Fallback != nil:
 		c.CRS = opt.Fallback
-	case c.Format == FormatGeoJSON:
-		c.CRS = CRS84
 	case lonLatBounds(c.Features):
 		c.CRS = CRS84
 		c.Note = "no coordinate system declared; coordinates are within lon/lat bounds, read as WGS 84 lon/lat"

@@ -35,6 +35,8 @@ type Config struct {
 	Scoring      ScoringConfig  `toml:"scoring"`
 	Aging        AgingConfig    `toml:"aging"`
 	Output       OutputConfig   `toml:"output"`
+	Hydrants     HydrantLayer   `toml:"hydrants"`
+	FireFlow     FireFlowConfig `toml:"fire_flow"`
 
 	// dir is the folder relative paths are read from; file is the config's
 	// own name for messages ("built-in demo" when there is none).
@@ -167,6 +169,36 @@ type ScoringConfig struct {
 	DeficitPoorFraction  *float64 `toml:"deficit_poor_fraction"`
 }
 
+// HydrantLayer names the optional hydrant points. Without it fire flow is
+// computed at every junction.
+type HydrantLayer struct {
+	Path   string        `toml:"path"`
+	Table  string        `toml:"table"`
+	CRS    string        `toml:"crs"`
+	Fields HydrantFields `toml:"fields"`
+}
+
+// HydrantFields maps the hydrant attributes.
+type HydrantFields struct {
+	ID             string `toml:"id"`
+	NeededFlow     string `toml:"needed_flow"`
+	NeededFlowUnit string `toml:"needed_flow_unit"`
+	Zone           string `toml:"zone"`
+}
+
+// FireFlowConfig is the max-day-plus-fire scenario.
+type FireFlowConfig struct {
+	// Enabled turns the fire-flow sweep off when false (a pointer: unset
+	// means on).
+	Enabled         *bool    `toml:"enabled"`
+	ResidualPsi     *float64 `toml:"residual_pressure_psi"`
+	ResidualKPa     *float64 `toml:"residual_pressure_kpa"`
+	NeededGpm       *float64 `toml:"needed_gpm"`
+	NeededLps       *float64 `toml:"needed_lps"`
+	HydrantSearchFt *float64 `toml:"hydrant_search_ft"`
+	HydrantSearchM  *float64 `toml:"hydrant_search_m"`
+}
+
 // OutputConfig chooses the formats of the annotated layers; ranked.csv and
 // problems.csv are always written.
 type OutputConfig struct {
@@ -212,7 +244,17 @@ const (
 	// defaultMaxDayFactor is max day ÷ average day: the upper end of the
 	// usual 1.5–2.0 (common practice; DOMAIN.md §3.6 gives the range from
 	// memory of AWWA M32 and a confirmed district standard of 2.0).
-	defaultMaxDayFactor     = 2.0
+	defaultMaxDayFactor = 2.0
+	// defaultResidualPsi is the fire-flow residual criterion: 20 psi, the
+	// Ten States Standards' minimum under all flow conditions and the
+	// pressure NFPA 291 rates hydrants at (DOMAIN.md §3.1, §4.3).
+	defaultResidualPsi = 20
+	// defaultNeededGpm is the needed fire flow of a hydrant with none of
+	// its own: 1,000 gpm, the International Fire Code's Appendix B figure
+	// for one- and two-family dwellings up to 3,600 ft² (DOMAIN.md §4.1; the
+	// fire authority's figure replaces it).
+	defaultNeededGpm        = 1000
+	defaultHydrantSearchFt  = 50
 	defaultDesignC          = 130 // conservative long-term C for new PVC or lined DI (common practice)
 	defaultNeighbours       = 4
 	defaultPower            = 2
@@ -336,7 +378,7 @@ func (c *Config) validate() error {
 			errs = append(errs, fmt.Errorf("output.formats: %q is not one of \"geojson\", \"gpkg\", \"shp\"", f))
 		}
 	}
-	for _, l := range c.layers() {
+	for _, l := range append(c.layers(), c.hydrantLayer()) {
 		if l.crs == "" {
 			continue
 		}
@@ -360,6 +402,11 @@ func (c *Config) layers() []layerConfig {
 		{"demands", c.Demands.Path, c.Demands.Table, c.Demands.CRS},
 		{"elevations", c.Elevations.Path, c.Elevations.Table, c.Elevations.CRS},
 	}
+}
+
+// hydrantLayer is the optional hydrant section as a layerConfig.
+func (c *Config) hydrantLayer() layerConfig {
+	return layerConfig{"hydrants", c.Hydrants.Path, c.Hydrants.Table, c.Hydrants.CRS}
 }
 
 // wants reports whether the config asks for an output format.
@@ -421,6 +468,7 @@ func (c *Config) quantities() []quantity {
 	return []quantity{
 		c.snapTolerance(), c.sourceSearch(), c.warnDistance(),
 		c.maxHeadloss(), c.maxVelocity(), c.minPressure(), c.minDiameter(),
+		c.fireResidual(), c.fireNeeded(), c.hydrantSearch(),
 		c.headlossGood(), c.headlossPoor(), c.velocityGood(), c.velocityPoor(),
 		c.deficitGood(), c.deficitPoor(),
 	}
@@ -429,6 +477,8 @@ func (c *Config) quantities() []quantity {
 const (
 	ft  = float64(hydraulics.Foot)
 	in  = float64(hydraulics.Inch)
+	gpm = float64(hydraulics.USGallonPerMinute)
+	lps = float64(hydraulics.LitrePerSecond)
 	mm  = float64(hydraulics.Millimetre)
 	fps = float64(hydraulics.FootPerSecond)
 	psi = float64(hydraulics.PoundPerSquareInch)
@@ -465,6 +515,29 @@ func (c *Config) minPressure() quantity {
 func (c *Config) minDiameter() quantity {
 	k := c.Criteria
 	return quantity{"criteria.min_diameter_in", "criteria.min_diameter_mm", k.MinDiameterIn, k.MinDiameterMm, [2]float64{in, mm}, defaultMinDiameterIn * in, false}
+}
+
+func (c *Config) fireResidual() quantity {
+	f := c.FireFlow
+	return quantity{"fire_flow.residual_pressure_psi", "fire_flow.residual_pressure_kpa", f.ResidualPsi, f.ResidualKPa, [2]float64{psi, kPa}, defaultResidualPsi * psi, false}
+}
+
+func (c *Config) fireNeeded() quantity {
+	f := c.FireFlow
+	return quantity{"fire_flow.needed_gpm", "fire_flow.needed_lps", f.NeededGpm, f.NeededLps, [2]float64{gpm, lps}, defaultNeededGpm * gpm, true}
+}
+
+func (c *Config) hydrantSearch() quantity {
+	f := c.FireFlow
+	return quantity{"fire_flow.hydrant_search_ft", "fire_flow.hydrant_search_m", f.HydrantSearchFt, f.HydrantSearchM, [2]float64{ft, 1}, defaultHydrantSearchFt * ft, true}
+}
+
+// fireFlowOn reports whether the run computes fire flow.
+func (c *Config) fireFlowOn() bool { return c.FireFlow.Enabled == nil || *c.FireFlow.Enabled }
+
+func (c *Config) hydrantSchema() gis.HydrantSchema {
+	f := c.Hydrants.Fields
+	return gis.HydrantSchema{ID: f.ID, NeededFlow: f.NeededFlow, NeededFlowUnit: f.NeededFlowUnit, Zone: f.Zone}
 }
 
 func (c *Config) headlossGood() quantity {

@@ -21,6 +21,7 @@ const (
 	demoSources    = "quillmere-supplies.geojson"
 	demoDemands    = "quillmere-demands.geojson"
 	demoElevations = "quillmere-spot-heights.geojson"
+	demoHydrants   = "quillmere-hydrants.geojson"
 	demoConfigName = "headroom.toml"
 
 	// The range of --pipes: the smallest town that holds a whole district,
@@ -55,7 +56,8 @@ func demoCommand(args []string, stdout, stderr io.Writer) error {
 	layers := []struct {
 		name string
 		fc   *geojson.FeatureCollection
-	}{{demoPipes, town.Pipes}, {demoSources, town.Sources}, {demoDemands, town.Demands}, {demoElevations, town.Elevations}}
+	}{{demoPipes, town.Pipes}, {demoSources, town.Sources}, {demoDemands, town.Demands}, {demoElevations, town.Elevations},
+		{demoHydrants, town.Hydrants}}
 	for _, l := range layers {
 		path := filepath.Join(*out, l.name)
 		if err := gis.WriteCollection(path, l.fc); err != nil {
@@ -95,6 +97,9 @@ func demoConfig(town *demotown.Town) *Config {
 	c.Elevations = ElevationLayer{Path: demoElevations, Fields: ElevationFields{
 		Elevation: demotown.ElevationValue, ElevationUnit: "ft",
 	}}
+	c.Hydrants = HydrantLayer{Path: demoHydrants, Fields: HydrantFields{
+		ID: demotown.HydrantID, NeededFlow: demotown.HydrantNeeded, NeededFlowUnit: "gpm", Zone: demotown.HydrantZone,
+	}}
 	fillDefaults(c)
 	return c
 }
@@ -128,6 +133,7 @@ func builtInDemo() (*inputs, error) {
 	return &inputs{
 		cfg: cfg, title: town.Name + " demo town (built-in)",
 		pipes: town.Pipes, sources: town.Sources, demands: town.Demands, elevations: town.Elevations,
+		hydrants: town.Hydrants,
 	}, nil
 }
 

@@ -45,20 +45,28 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	}
 	pipes, nodes := r.pipeLayer(), r.nodeLayer()
 	ranked, problems := r.rankedLayer(pipes), r.problemLayer()
-	if err := checkFinite(pipes, nodes, ranked, problems); err != nil {
+	hydrants := r.hydrantOutput()
+	if err := checkFinite(pipes, nodes, ranked, problems, hydrants); err != nil {
 		return nil, err
 	}
+	fire := r.cfg.fireFlowOn()
 	outs := []output{{"ranked.csv", func(p string) error { return gis.WriteCSV(p, ranked) }}}
 	if r.cfg.wants(formatGeoJSON) {
 		outs = append(outs,
 			output{"pipes.geojson", func(p string) error { return gis.WriteGeoJSON(p, pipes) }},
 			output{"nodes.geojson", func(p string) error { return gis.WriteGeoJSON(p, nodes) }})
+		if fire {
+			outs = append(outs, output{"hydrants.geojson", func(p string) error { return gis.WriteGeoJSON(p, hydrants) }})
+		}
 	}
 	if r.cfg.wants(formatGeoPackage) {
 		srs := spatialRef(r.pipeLayerCRS)
 		outs = append(outs,
 			output{"pipes.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(pipes)) }},
 			output{"nodes.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(nodes)) }})
+		if fire {
+			outs = append(outs, output{"hydrants.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(hydrants)) }})
+		}
 	}
 	if r.cfg.wants(formatShapefile) {
 		var short [][]gis.ShapefileField

@@ -58,6 +58,7 @@ type inputs struct {
 	// collections, when not nil, replace reading the layer files; names
 	// are the layer file names used in messages either way.
 	pipes, sources, demands, elevations *geojson.FeatureCollection
+	hydrants                            *geojson.FeatureCollection // optional
 	// crs is --crs: the coordinate system of a layer that declares none
 	// and has no crs key of its own.
 	crs *gis.CRS
@@ -88,27 +89,30 @@ func openInputs(configPath string) (*inputs, error) {
 
 // result is everything the writers and the summary need.
 type result struct {
-	cfg        *Config
-	title      string
-	pipes      []gis.Pipe
-	sources    []gis.Point
-	demands    []gis.Point
-	elevations []gis.Point
-	topo       *gis.Topology
-	supplies   []gis.Supply
-	net        *hydraulics.Network
-	parts      [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
-	cFactor    []float64
-	cBasis     []string
-	sol        *hydraulics.Solution // peak hour, the scenario the criteria read
-	scenarios  []scenario           // average day, max day, peak hour
-	checks     []hydraulics.PipeCheck
-	lowNodes   []int  // junctions below the pressure criterion, ascending
-	belowMin   []bool // per node: in lowNodes
-	scores     []scoring.Result
-	problems   []gis.Problem
-	limits     hydraulics.Limits
-	inputPaths []string // layer and config files read, never to be overwritten
+	cfg          *Config
+	title        string
+	pipes        []gis.Pipe
+	sources      []gis.Point
+	demands      []gis.Point
+	elevations   []gis.Point
+	topo         *gis.Topology
+	supplies     []gis.Supply
+	net          *hydraulics.Network
+	parts        [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
+	cFactor      []float64
+	cBasis       []string
+	hydrants     []fireHydrant                // the fire-flow sweep's hydrants and results
+	hydrantLayer bool                         // hydrants came from a layer (else every junction)
+	fireCharge   []*scoring.FireFlowShortfall // per input pipe: the shortfall it is charged with
+	sol          *hydraulics.Solution         // peak hour, the scenario the criteria read
+	scenarios    []scenario                   // average day, max day, peak hour
+	checks       []hydraulics.PipeCheck
+	lowNodes     []int  // junctions below the pressure criterion, ascending
+	belowMin     []bool // per node: in lowNodes
+	scores       []scoring.Result
+	problems     []gis.Problem
+	limits       hydraulics.Limits
+	inputPaths   []string // layer and config files read, never to be overwritten
 	// pipeLayerCRS is the pipe layer's coordinate system, which the
 	// GeoPackage and shapefile outputs keep.
 	pipeLayerCRS *gis.CRS
@@ -155,7 +159,13 @@ func analyse(in *inputs) (*result, error) {
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
 	r.parts = topo.Parts
 
+	if err := readHydrants(in, r); err != nil {
+		return nil, err
+	}
 	if err := r.solveScenarios(); err != nil {
+		return nil, err
+	}
+	if err := r.fireFlow(); err != nil {
 		return nil, err
 	}
 	sol := r.sol
@@ -477,6 +487,9 @@ func (r *result) scoringInput() []scoring.Pipe {
 			sp.Reason = "no source reaches this pipe"
 		default:
 			sp.Scorable = true
+			if r.fireCharge != nil {
+				sp.FireFlow = r.fireCharge[i]
+			}
 			sp.Check = r.checks[r.governing(i)] // a split pipe is judged by its worst part
 			sp.LowPressure = r.pipeLowPressure(i)
 		}

@@ -22,8 +22,8 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata/de
 // files; binaryOutputs are compared between runs but not kept (a binary
 // golden file cannot be reviewed as a diff).
 var (
-	outputFiles   = []string{"ranked.csv", "pipes.geojson", "nodes.geojson", "problems.csv"}
-	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg"}
+	outputFiles   = []string{"ranked.csv", "pipes.geojson", "nodes.geojson", "hydrants.geojson", "problems.csv"}
+	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg", "hydrants.gpkg"}
 )
 
 // runHeadroom runs the command in-process and returns its exit code and output.
@@ -139,6 +139,8 @@ func TestDemoMassBalanceAndConvergence(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	in.cfg.FireFlow.Enabled = new(bool) // the scenarios only
+
 	r, err := analyse(in)
 	if err != nil {
 		t.Fatal(err)
@@ -404,6 +406,7 @@ func TestSIAndUSRunsAgree(t *testing.T) {
 			t.Fatal(err)
 		}
 		in.cfg.Units = units
+		in.cfg.FireFlow.Enabled = new(bool) // the scenarios only
 		r, err := analyse(in)
 		if err != nil {
 			t.Fatal(err)

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"fmt"
 	"io"
 	"math"
@@ -30,6 +31,7 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 	p("headroom: %s, analysis year %d, units %s\n\n", r.title, r.cfg.AnalysisYear, s)
 	r.summariseInputs(p)
 	r.summariseSolve(p)
+	r.summariseFireFlow(p)
 	r.summariseTop(&b)
 	p("\nCriteria (peak hour): unit head loss %.1f %s, velocity %.1f %s, pressure %.1f %s; design C %.0f for sizing\n",
 		s.UnitHeadLoss(r.limits.MaxSlope), s.UnitHeadLossLabel(), s.Velocity(r.limits.MaxVelocity), s.VelocityLabel(),
@@ -148,4 +150,49 @@ func (r *result) summariseTop(b *strings.Builder) {
 			r.cFactor[sc.Index], s.UnitHeadLoss(c.Slope), flowDigits, s.Flow(c.Deficit), sc.Score, sc.Reasons)
 	}
 	tw.Flush()
+}
+
+// summariseFireFlow prints the fire-flow sweep: classes, shortfalls and the
+// worst hydrants.
+func (r *result) summariseFireFlow(p func(string, ...any)) {
+	if !r.cfg.fireFlowOn() {
+		return
+	}
+	s := r.cfg.system()
+	classes := map[string]int{}
+	var short []fireHydrant
+	var solved int
+	for _, h := range r.hydrants {
+		if h.res == nil {
+			continue
+		}
+		solved++
+		classes[nfpaClass(h.res.Available)]++
+		if h.res.Available < h.needed {
+			short = append(short, h)
+		}
+	}
+	what := "hydrants"
+	if !r.hydrantLayer {
+		what = "junctions (no hydrant layer: every junction is a hydrant)"
+	}
+	p("Fire flow (max day + fire at one hydrant at a time, %.0f %s residual at the hydrant and in its zone)\n",
+		s.Pressure(hydraulics.Pressure(r.cfg.si(r.cfg.fireResidual()))), s.PressureLabel())
+	p("  %d %s, %d solved; NFPA 291 classes: AA %d, A %d, B %d, C %d\n", len(r.hydrants), what, solved,
+		classes["AA"], classes["A"], classes["B"], classes["C"])
+	p("  %d short of their needed fire flow", len(short))
+	slices.SortStableFunc(short, func(a, b fireHydrant) int {
+		return cmp.Compare(float64(a.res.Available-a.needed), float64(b.res.Available-b.needed))
+	})
+	for k, h := range short {
+		if k == 3 {
+			break
+		}
+		sep := "; worst: "
+		if k > 0 {
+			sep = ", "
+		}
+		p("%s%s %.0f of %.0f %s", sep, h.ID, s.Flow(h.res.Available), s.Flow(h.needed), s.FlowLabel())
+	}
+	p("\n\n")
 }

@@ -96,6 +96,22 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("elevation = %s\n", str(ef.Elevation))
 	p("elevation_unit = %s  # \"ft\" or \"m\"\n\n", str(orDefault(ef.ElevationUnit, "ft")))
 
+	hf := c.Hydrants.Fields
+	p("[hydrants]  # optional Point layer of hydrants; with no path, fire flow is computed at every junction\n")
+	p("path = %s\n", str(c.Hydrants.Path))
+	layerKeys(c.Hydrants.Table, c.Hydrants.CRS)
+	p("[hydrants.fields]\n")
+	p("id = %s\n", str(hf.ID))
+	p("needed_flow = %s  # optional: the needed fire flow set by the fire authority\n", str(hf.NeededFlow))
+	p("needed_flow_unit = %s  # \"gpm\", \"lps\", \"mgd\" or \"cfs\"\n", str(orDefault(hf.NeededFlowUnit, "gpm")))
+	p("zone = %s  # optional pressure zone\n\n", str(hf.Zone))
+
+	p("[fire_flow]  # max day plus fire flow at each hydrant, one at a time\n")
+	p("enabled = %t\n", c.fireFlowOn())
+	q(c.fireResidual(), "residual pressure kept at the hydrant and every junction of its zone")
+	q(c.fireNeeded(), "needed fire flow where the hydrant layer gives none (IFC Appendix B: 1,000 gpm for dwellings)")
+	q(c.hydrantSearch(), "a hydrant joins the nearest junction within this distance\n")
+
 	p("[network]\n")
 	q(c.snapTolerance(), "pipe ends closer than this become one node")
 	q(c.sourceSearch(), "a source joins the nearest node within this distance\n")
