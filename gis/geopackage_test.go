@@ -863,7 +863,7 @@ func FuzzGeoPackageGeometry(f *testing.F) {
 		}
 		if z != nil {
 			n := 0
-			gpkgEachPoint(g, func(orb.Point) { n++ })
+			EachPoint(g, func(orb.Point) { n++ })
 			if n != len(z) {
 				t.Fatalf("%d vertices but %d Z values", n, len(z))
 			}

@@ -502,44 +502,13 @@ func gpkgWritable(g orb.Geometry) bool {
 	}
 	n := 0
 	ok := true
-	gpkgEachPoint(g, func(p orb.Point) {
+	EachPoint(g, func(p orb.Point) {
 		n++
 		if math.IsNaN(p[0]) || math.IsNaN(p[1]) || math.IsInf(p[0], 0) || math.IsInf(p[1], 0) {
 			ok = false
 		}
 	})
 	return ok && n > 0
-}
-
-func gpkgEachPoint(g orb.Geometry, fn func(orb.Point)) {
-	switch x := g.(type) {
-	case orb.Point:
-		fn(x)
-	case orb.MultiPoint:
-		for _, p := range x {
-			fn(p)
-		}
-	case orb.LineString:
-		for _, p := range x {
-			fn(p)
-		}
-	case orb.MultiLineString:
-		for _, ls := range x {
-			gpkgEachPoint(ls, fn)
-		}
-	case orb.Polygon:
-		for _, r := range x {
-			gpkgEachPoint(orb.LineString(r), fn)
-		}
-	case orb.MultiPolygon:
-		for _, p := range x {
-			gpkgEachPoint(p, fn)
-		}
-	case orb.Collection:
-		for _, m := range x {
-			gpkgEachPoint(m, fn)
-		}
-	}
 }
 
 // gpkgEncodeGeometry appends the GeoPackage binary geometry of g:

@@ -295,3 +295,40 @@ func gridLength(g orb.Geometry) float64 {
 	}
 	return math.NaN()
 }
+
+// EachPoint calls fn for every coordinate of g, in order: points, line
+// vertices, polygon ring vertices and the members of collections.
+func EachPoint(g orb.Geometry, fn func(orb.Point)) {
+	switch x := g.(type) {
+	case orb.Point:
+		fn(x)
+	case orb.MultiPoint:
+		for _, p := range x {
+			fn(p)
+		}
+	case orb.LineString:
+		for _, p := range x {
+			fn(p)
+		}
+	case orb.Ring:
+		for _, p := range x {
+			fn(p)
+		}
+	case orb.MultiLineString:
+		for _, ls := range x {
+			EachPoint(ls, fn)
+		}
+	case orb.Polygon:
+		for _, r := range x {
+			EachPoint(r, fn)
+		}
+	case orb.MultiPolygon:
+		for _, p := range x {
+			EachPoint(p, fn)
+		}
+	case orb.Collection:
+		for _, m := range x {
+			EachPoint(m, fn)
+		}
+	}
+}

@@ -112,45 +112,13 @@ func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 func nonFinitePoint(g orb.Geometry) (float64, bool) {
 	var bad float64
 	found := false
-	check := func(ps []orb.Point) {
-		for _, p := range ps {
-			for _, x := range p {
-				if !found && !finite(x) {
-					bad, found = x, true
-				}
+	gis.EachPoint(g, func(p orb.Point) {
+		for _, x := range p {
+			if !found && !finite(x) {
+				bad, found = x, true
 			}
 		}
-	}
-	switch x := g.(type) {
-	case orb.Point:
-		check([]orb.Point{x})
-	case orb.MultiPoint:
-		check(x)
-	case orb.LineString:
-		check(x)
-	case orb.Ring:
-		check(x)
-	case orb.MultiLineString:
-		for _, ls := range x {
-			check(ls)
-		}
-	case orb.Polygon:
-		for _, r := range x {
-			check(r)
-		}
-	case orb.MultiPolygon:
-		for _, p := range x {
-			for _, r := range p {
-				check(r)
-			}
-		}
-	case orb.Collection:
-		for _, m := range x {
-			if v, ok := nonFinitePoint(m); ok {
-				return v, true
-			}
-		}
-	}
+	})
 	return bad, found
 }
 
