@@ -92,6 +92,7 @@ type DemandLayer struct {
 	MaxDayFactor   float64      `toml:"max_day_factor"`
 	WarnDistanceFt *float64     `toml:"warn_distance_ft"`
 	WarnDistanceM  *float64     `toml:"warn_distance_m"`
+	Allocation     string       `toml:"allocation"`
 }
 
 // DemandFields maps the demand attributes.
@@ -198,6 +199,12 @@ type FireFlowConfig struct {
 	HydrantSearchFt *float64 `toml:"hydrant_search_ft"`
 	HydrantSearchM  *float64 `toml:"hydrant_search_m"`
 }
+
+// Demand allocations (demands.allocation).
+const (
+	allocateNearestNode = "nearest_node" // each point to its nearest junction
+	allocateAlongPipe   = "along_pipe"   // each point to its nearest pipe, split between its ends by position
+)
 
 // OutputConfig chooses the formats of the annotated layers; ranked.csv and
 // problems.csv are always written.
@@ -338,6 +345,13 @@ func (c *Config) validate() error {
 		if f := c.Demands.MaxDayFactor; !(f >= 1) || math.IsInf(f, 0) || f > c.Demands.PeakHourFactor {
 			errs = append(errs, fmt.Errorf("demands.max_day_factor = %g: must be at least 1 and at most peak_hour_factor", f))
 		}
+	}
+	switch c.Demands.Allocation {
+	case "":
+		c.Demands.Allocation = allocateNearestNode
+	case allocateNearestNode, allocateAlongPipe:
+	default:
+		errs = append(errs, fmt.Errorf("demands.allocation = %q: use %q or %q", c.Demands.Allocation, allocateNearestNode, allocateAlongPipe))
 	}
 	if c.Elevations.Neighbours == 0 {
 		c.Elevations.Neighbours = defaultNeighbours

@@ -43,7 +43,8 @@ func fuzzConfigSeeds(tb testing.TB) []configSeed {
 	return []configSeed{
 		{"init", in, "ok"},
 		{"demo", demo, "ok"},
-		{"cut off halfway", in[:len(in)/2], "toml: "},
+		// cut inside a quoted value, wherever the halfway point falls
+		{"cut off halfway", in[:strings.LastIndex(in[:len(in)/2], `= "`)+3], "toml: "},
 		{"unclosed table header", replace("[pipes]", "[pipes"), "toml: "},
 		{"SI units with US spellings", replace(`units = "us"`, `units = "si"`), ""},
 		{"unknown units", replace(`units = "us"`, `units = "imperial"`), `units = "imperial"`},

@@ -148,7 +148,14 @@ func analyse(in *inputs) (*result, error) {
 		fixed[s.Node] = true
 	}
 	r.noteDeadEnds(fixed)
-	demand, probs := gis.AllocateDemands(topo, r.demands, fixed, hydraulics.Length(cfg.si(cfg.warnDistance())))
+	warn := hydraulics.Length(cfg.si(cfg.warnDistance()))
+	allocate := gis.AllocateDemands
+	if cfg.Demands.Allocation == allocateAlongPipe {
+		allocate = func(t *gis.Topology, d []gis.Point, f []bool, w hydraulics.Length) ([]hydraulics.Flow, []gis.Problem) {
+			return gis.AllocateDemandsToPipes(t, r.pipes, d, f, w)
+		}
+	}
+	demand, probs := allocate(topo, r.demands, fixed, warn)
 	r.problems = append(r.problems, probs...)
 	elev, err := gis.InterpolateElevations(topo, r.elevations, cfg.Elevations.Neighbours, cfg.Elevations.Power)
 	if err != nil {

@@ -431,3 +431,40 @@ func TestSIAndUSRunsAgree(t *testing.T) {
 		}
 	}
 }
+
+// demands.allocation = "along_pipe" splits each point between the ends of
+// its nearest pipe by position; the total demand is conserved (issue 5)
+// and the run solves.
+func TestAlongPipeAllocationConservesDemand(t *testing.T) {
+	total := func(alloc string) (hydraulics.Flow, *result) {
+		in, err := builtInDemo()
+		if err != nil {
+			t.Fatal(err)
+		}
+		in.cfg.Demands.Allocation = alloc
+		in.cfg.FireFlow.Enabled = new(bool) // the scenarios only
+		r, err := analyse(in)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var sum hydraulics.Flow
+		for _, n := range r.net.Nodes {
+			sum += n.Demand
+		}
+		return sum, r
+	}
+	near, rn := total(allocateNearestNode)
+	along, ra := total(allocateAlongPipe)
+	if math.Abs(float64(along-near)) > 1e-12*float64(near) {
+		t.Errorf("along-pipe total %g m³/s, nearest-node %g m³/s", along, near)
+	}
+	var differ int
+	for i := range rn.net.Nodes {
+		if rn.net.Nodes[i].Demand != ra.net.Nodes[i].Demand {
+			differ++
+		}
+	}
+	if differ == 0 {
+		t.Error("along_pipe allocation gave the same node demands as nearest_node")
+	}
+}

@@ -82,6 +82,8 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("max_day_factor = %s  # max-day ÷ average-day demand (typically 1.5–2.0); default 2.0, at most peak_hour_factor\n",
 		num(orDefaultFloat(c.Demands.MaxDayFactor, math.Min(defaultMaxDayFactor, c.Demands.PeakHourFactor))))
 	q(c.warnDistance(), "a demand point farther than this from its node is listed in problems.csv")
+	p("allocation = %s  # \"nearest_node\": each point to its nearest junction; \"along_pipe\": to its nearest pipe, split between the pipe's ends by position\n",
+		str(orDefault(c.Demands.Allocation, allocateNearestNode)))
 	p("[demands.fields]\n")
 	p("id = %s\ndemand = %s  # required, average day\n", str(df.ID), str(df.Demand))
 	p("demand_unit = %s  # \"gpm\", \"lps\", \"mgd\" or \"cfs\"\n\n", str(orDefault(df.DemandUnit, "gpm")))
