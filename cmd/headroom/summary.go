@@ -18,7 +18,7 @@ var cautions = []string{
 	"Planning-level screening, not a calibrated hydraulic model: results rest on assumed C-factors, demand allocation, the peaking factor, source grades and elevations, none checked against field tests unless you supplied measured C values.",
 	"Aged C-factors are estimates (the Sharp & Walski fit has a 95 % band of about ±15 in C); treat deficits near a criterion as possible, not certain.",
 	"Steady state only: no pumps or controls over time, no tank drain-down, no transients.",
-	"Pressure and fire-flow decisions follow the locally adopted codes and the fire authority having jurisdiction; designs and submittals need the review and seal of a licensed professional engineer.",
+	"Fire-flow figures are model estimates, not hydrant flow tests; pressure and fire-flow decisions follow the locally adopted codes and the fire authority having jurisdiction; designs and submittals need the review and seal of a licensed professional engineer.",
 }
 
 // writeSummary prints the run summary: counts, the scenario's statistics,
