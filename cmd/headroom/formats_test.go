@@ -167,6 +167,7 @@ func TestEveryOutputOpensInGDALWithItsCRS(t *testing.T) {
 	}
 	pipes := len(readGeoJSONProperties(t, filepath.Join(out, "pipes.geojson")))
 	nodes := len(readGeoJSONProperties(t, filepath.Join(out, "nodes.geojson")))
+	hydrants := len(readGeoJSONProperties(t, filepath.Join(out, "hydrants.geojson")))
 	cases := []struct {
 		file  string
 		count int
@@ -177,6 +178,8 @@ func TestEveryOutputOpensInGDALWithItsCRS(t *testing.T) {
 		{"nodes.geojson", nodes, `ID["EPSG",4326]`, "pressure_psi: Real"},
 		{"pipes.gpkg", pipes, `ID["EPSG",3419]`, "headloss_ft_per_kft: Real"},
 		{"nodes.gpkg", nodes, `ID["EPSG",3419]`, "pressure_psi: Real"},
+		{"hydrants.geojson", hydrants, `ID["EPSG",4326]`, "available_fire_flow_gpm: Real"},
+		{"hydrants.gpkg", hydrants, `ID["EPSG",3419]`, "nfpa_class: String"},
 		{"pipes.shp", pipes, "Kansas North", "headloss_f: Real"},
 		{"nodes.shp", nodes, "Kansas North", "pressure_p: Real"},
 	}

@@ -218,7 +218,7 @@ func (r *result) pipeColumns() []gis.Column {
 		{Name: "headloss_" + h, Kind: gis.Real, Decimals: 3},
 		{Name: "capacity_" + q, Kind: gis.Real, Decimals: 1},
 		{Name: "deficit_" + q, Kind: gis.Real, Decimals: 1},
-		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 0},
+		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 1},
 	}
 	for _, sc := range r.otherScenarios() {
 		cols = append(cols, gis.Column{Name: sc.prefix + "flow_" + q, Kind: gis.Real, Decimals: 2},
