@@ -43,11 +43,18 @@ type Config struct {
 	dir, file string
 }
 
+// LayerFile is what every layer section has: the file, the GeoPackage
+// table and the coordinate system to assume when the layer declares none.
+// Its keys sit directly in the section ([pipes] path = ...).
+type LayerFile struct {
+	Path  string `toml:"path"`
+	Table string `toml:"table"`
+	CRS   string `toml:"crs"`
+}
+
 // PipeLayer names the pipe layer and its fields.
 type PipeLayer struct {
-	Path   string     `toml:"path"`
-	Table  string     `toml:"table"`
-	CRS    string     `toml:"crs"`
+	LayerFile
 	Fields PipeFields `toml:"fields"`
 }
 
@@ -68,9 +75,7 @@ type PipeFields struct {
 
 // SourceLayer names the fixed-grade supply points.
 type SourceLayer struct {
-	Path   string       `toml:"path"`
-	Table  string       `toml:"table"`
-	CRS    string       `toml:"crs"`
+	LayerFile
 	Fields SourceFields `toml:"fields"`
 }
 
@@ -84,9 +89,7 @@ type SourceFields struct {
 
 // DemandLayer names the demand points and the peaking factor.
 type DemandLayer struct {
-	Path           string       `toml:"path"`
-	Table          string       `toml:"table"`
-	CRS            string       `toml:"crs"`
+	LayerFile
 	Fields         DemandFields `toml:"fields"`
 	PeakHourFactor float64      `toml:"peak_hour_factor"`
 	MaxDayFactor   float64      `toml:"max_day_factor"`
@@ -104,9 +107,7 @@ type DemandFields struct {
 
 // ElevationLayer names the spot heights and the interpolation.
 type ElevationLayer struct {
-	Path       string          `toml:"path"`
-	Table      string          `toml:"table"`
-	CRS        string          `toml:"crs"`
+	LayerFile
 	Fields     ElevationFields `toml:"fields"`
 	Neighbours int             `toml:"neighbours"`
 	Power      float64         `toml:"power"`
@@ -173,9 +174,7 @@ type ScoringConfig struct {
 // HydrantLayer names the optional hydrant points. Without it fire flow is
 // computed at every junction.
 type HydrantLayer struct {
-	Path   string        `toml:"path"`
-	Table  string        `toml:"table"`
-	CRS    string        `toml:"crs"`
+	LayerFile
 	Fields HydrantFields `toml:"fields"`
 }
 
@@ -393,35 +392,34 @@ func (c *Config) validate() error {
 		}
 	}
 	for _, l := range append(c.layers(), c.hydrantLayer()) {
-		if l.crs == "" {
+		if l.CRS == "" {
 			continue
 		}
-		if _, err := gis.ParseCRS(l.crs); err != nil {
-			errs = append(errs, fmt.Errorf("%s.crs = %q: %w", l.key, l.crs, err))
+		if _, err := gis.ParseCRS(l.CRS); err != nil {
+			errs = append(errs, fmt.Errorf("%s.crs = %q: %w", l.key, l.CRS, err))
 		}
 	}
 	return errors.Join(errs...)
 }
 
-// layerConfig is what every layer section has in common.
+// layerConfig is a layer section with its key, for messages.
 type layerConfig struct {
-	key, path, table, crs string
+	key string
+	LayerFile
 }
 
-// layers lists the four layer sections in reading order.
+// layers lists the four required layer sections in reading order.
 func (c *Config) layers() []layerConfig {
 	return []layerConfig{
-		{"pipes", c.Pipes.Path, c.Pipes.Table, c.Pipes.CRS},
-		{"sources", c.Sources.Path, c.Sources.Table, c.Sources.CRS},
-		{"demands", c.Demands.Path, c.Demands.Table, c.Demands.CRS},
-		{"elevations", c.Elevations.Path, c.Elevations.Table, c.Elevations.CRS},
+		{"pipes", c.Pipes.LayerFile},
+		{"sources", c.Sources.LayerFile},
+		{"demands", c.Demands.LayerFile},
+		{"elevations", c.Elevations.LayerFile},
 	}
 }
 
 // hydrantLayer is the optional hydrant section as a layerConfig.
-func (c *Config) hydrantLayer() layerConfig {
-	return layerConfig{"hydrants", c.Hydrants.Path, c.Hydrants.Table, c.Hydrants.CRS}
-}
+func (c *Config) hydrantLayer() layerConfig { return layerConfig{"hydrants", c.Hydrants.LayerFile} }
 
 // wants reports whether the config asks for an output format.
 func (c *Config) wants(format string) bool { return slices.Contains(c.Output.Formats, format) }

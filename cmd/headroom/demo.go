@@ -83,21 +83,21 @@ func demoCommand(args []string, stdout, stderr io.Writer) error {
 // demoConfig maps every field of the demo town's (invented) schema.
 func demoConfig(town *demotown.Town) *Config {
 	c := &Config{Units: "us", AnalysisYear: town.AnalysisYear}
-	c.Pipes = PipeLayer{Path: demoPipes, Fields: PipeFields{
+	c.Pipes = PipeLayer{LayerFile: LayerFile{Path: demoPipes}, Fields: PipeFields{
 		ID: demotown.PipeID, Diameter: demotown.PipeDiameter, DiameterUnit: "in", Material: demotown.PipeMaterial,
 		InstallYear: demotown.PipeYear, MeasuredC: demotown.PipeMeasuredC, Status: demotown.PipeStatus,
 		ClosedValues: []string{"closed"}, Zone: demotown.PipeZone, LengthUnit: "ft",
 	}}
-	c.Sources = SourceLayer{Path: demoSources, Fields: SourceFields{
+	c.Sources = SourceLayer{LayerFile: LayerFile{Path: demoSources}, Fields: SourceFields{
 		ID: demotown.SourceID, Name: demotown.SourceName, Grade: demotown.SourceGrade, GradeUnit: "ft",
 	}}
-	c.Demands = DemandLayer{Path: demoDemands, PeakHourFactor: town.PeakHourFactor, Fields: DemandFields{
+	c.Demands = DemandLayer{LayerFile: LayerFile{Path: demoDemands}, PeakHourFactor: town.PeakHourFactor, Fields: DemandFields{
 		ID: demotown.DemandID, Demand: demotown.DemandADD, DemandUnit: "gpm",
 	}}
-	c.Elevations = ElevationLayer{Path: demoElevations, Fields: ElevationFields{
+	c.Elevations = ElevationLayer{LayerFile: LayerFile{Path: demoElevations}, Fields: ElevationFields{
 		Elevation: demotown.ElevationValue, ElevationUnit: "ft",
 	}}
-	c.Hydrants = HydrantLayer{Path: demoHydrants, Fields: HydrantFields{
+	c.Hydrants = HydrantLayer{LayerFile: LayerFile{Path: demoHydrants}, Fields: HydrantFields{
 		ID: demotown.HydrantID, NeededFlow: demotown.HydrantNeeded, NeededFlowUnit: "gpm", Zone: demotown.HydrantZone,
 	}}
 	fillDefaults(c)
@@ -143,13 +143,13 @@ func initCommand(args []string, stdout, stderr io.Writer) error {
 		return usageError{"init takes no arguments; redirect its output to a file: headroom init > headroom.toml"}
 	}
 	c := &Config{Units: "us", AnalysisYear: 2026}
-	c.Pipes = PipeLayer{Path: "mains.geojson", Fields: PipeFields{
+	c.Pipes = PipeLayer{LayerFile: LayerFile{Path: "mains.geojson"}, Fields: PipeFields{
 		ID: "id", Diameter: "diameter", Material: "material", InstallYear: "install_year",
 		MeasuredC: "measured_c", Status: "status", Zone: "zone",
 	}}
-	c.Sources = SourceLayer{Path: "sources.geojson", Fields: SourceFields{ID: "id", Name: "name", Grade: "grade"}}
-	c.Demands = DemandLayer{Path: "demands.geojson", PeakHourFactor: 2.5, Fields: DemandFields{ID: "id", Demand: "demand"}}
-	c.Elevations = ElevationLayer{Path: "elevations.geojson", Fields: ElevationFields{Elevation: "elevation"}}
+	c.Sources = SourceLayer{LayerFile: LayerFile{Path: "sources.geojson"}, Fields: SourceFields{ID: "id", Name: "name", Grade: "grade"}}
+	c.Demands = DemandLayer{LayerFile: LayerFile{Path: "demands.geojson"}, PeakHourFactor: 2.5, Fields: DemandFields{ID: "id", Demand: "demand"}}
+	c.Elevations = ElevationLayer{LayerFile: LayerFile{Path: "elevations.geojson"}, Fields: ElevationFields{Elevation: "elevation"}}
 	fillDefaults(c)
 	return writeConfig(stdout, c)
 }

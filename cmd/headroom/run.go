@@ -242,17 +242,17 @@ func readLayers(in *inputs, r *result) error {
 // openLayer opens one configured layer, or wraps the built-in collection.
 func openLayer(in *inputs, l layerConfig, mem *geojson.FeatureCollection) (*gis.Collection, error) {
 	if mem != nil {
-		return gis.FromGeoJSON(filepath.Base(l.path), mem), nil
+		return gis.FromGeoJSON(filepath.Base(l.Path), mem), nil
 	}
-	opt := gis.OpenOptions{Key: l.key, Table: l.table, Fallback: in.crs}
-	if l.crs != "" {
-		c, err := gis.ParseCRS(l.crs) // validated with the config
+	opt := gis.OpenOptions{Key: l.key, Table: l.Table, Fallback: in.crs}
+	if l.CRS != "" {
+		c, err := gis.ParseCRS(l.CRS) // validated with the config
 		if err != nil {
 			return nil, fmt.Errorf("%s.crs: %w", l.key, err)
 		}
 		opt.CRS = c
 	}
-	return gis.OpenLayer(in.cfg.path(l.path), opt)
+	return gis.OpenLayer(in.cfg.path(l.Path), opt)
 }
 
 // agedC returns each pipe's Hazen-Williams C and how it was found: a measured
