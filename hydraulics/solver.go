@@ -193,13 +193,9 @@ func (m *spd) cloneNumeric() *spd {
 	c := *m
 	c.diag = make([]float64, len(m.diag))
 	c.val = make([]float64, len(m.val))
-	c.lRow = make([]int32, len(m.lRow))
 	c.lVal = make([]float64, len(m.lVal))
 	c.d = make([]float64, len(m.d))
-	c.y = make([]float64, len(m.y))
-	c.pattern = make([]int32, len(m.pattern))
-	c.flag = make([]int32, len(m.flag))
-	c.lCount = make([]int32, len(m.lCount))
+	c.snWork = m.sn.newWork(m.n)
 	c.work = make([]float64, len(m.work))
 	return &c
 }

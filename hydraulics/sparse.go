@@ -1,8 +1,10 @@
 package hydraulics
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // spd is a symmetric positive-definite matrix with a fixed sparsity pattern, factorised as
@@ -15,11 +17,11 @@ import (
 // nnz(L) is a few times n for pipe networks. Factor and solve reuse workspaces held in the
 // value, so one spd must not be used from two goroutines at once.
 //
-// Method: the elimination tree and the column counts of L come from one pass over the pattern;
-// the numeric factorisation is the up-looking (row-by-row) simplicial LDLᵀ, in which row k of L
-// is the solution of a sparse triangular system whose pattern is the reach of column k of A in
-// the elimination tree. Reference: T. A. Davis, Direct Methods for Sparse Linear Systems, SIAM,
-// 2006, ch. 4 (cited from memory; the code is written from the algorithm).
+// Method: the elimination tree and the column counts of L come from one pass over the pattern,
+// the row indices of L from a second; the numeric factorisation is the left-looking supernodal
+// LDLᵀ of supernodal.go, which factorises runs of columns with one row structure as dense
+// blocks. Reference: T. A. Davis, Direct Methods for Sparse Linear Systems, SIAM, 2006, ch. 4
+// (cited from memory; the code is written from the algorithm).
 type spd struct {
 	n    int
 	perm []int32 // perm[k] is the caller's row eliminated k-th
@@ -36,17 +38,19 @@ type spd struct {
 	parent []int32 // elimination tree; -1 at a root
 	lStart []int   // column starts of L, len n+1
 
+	lRow []int32 // row indices of L by column, ascending (fixed by the symbolic step)
+	// nnzExact is the number of structural nonzeros of L; lRow may hold
+	// more, explicit zeros of the merged supernodes.
+	nnzExact int
+	sn       *supernodes // the supernodal partition of L (see supernodal.go)
+
 	// Numeric factorisation.
-	lRow []int32 // row indices of L by column
 	lVal []float64
 	d    []float64
 
 	// Workspaces.
-	y       []float64 // dense accumulator of the current row
-	pattern []int32   // nonzero pattern of the current row, in topological order
-	flag    []int32
-	lCount  []int32 // entries filled so far in each column of L
-	work    []float64
+	snWork supernodeWork
+	work   []float64
 }
 
 // pivotTiny is the smallest pivot d_k that factor accepts.
@@ -85,23 +89,102 @@ func newSPD(n int, pairs [][2]int32, x, y []float64) *spd {
 
 // newSPDOrdered is newSPD with a given elimination order: perm[k] is the row eliminated k-th.
 // The pairs must already be checked against n.
+//
+// The order is then renumbered in a postorder of its elimination tree (the same fill and the
+// same tree, relabelled), so that a column's last child comes just before it and supernodes
+// can merge (see relax).
 func newSPDOrdered(n int, pairs [][2]int32, perm []int32) *spd {
-	m := &spd{n: n, perm: perm}
-	m.pinv = make([]int32, n)
-	for k, v := range m.perm {
-		m.pinv[v] = int32(k)
-	}
+	m := &spd{n: n}
+	m.setOrder(perm)
 	m.buildUpper(pairs)
 	m.symbolic()
-	nnzL := m.lStart[n]
-	m.lRow = make([]int32, nnzL)
-	m.lVal = make([]float64, nnzL)
+	if post := m.postorder(); post != nil {
+		for k, v := range post {
+			post[k] = m.perm[v]
+		}
+		m.setOrder(post)
+		m.buildUpper(pairs)
+		m.symbolic()
+	}
+	m.lRow = make([]int32, m.lStart[n])
+	m.fillPattern()
+	m.findSupernodes()
+	m.snWork = m.sn.newWork(n)
+	m.lVal = make([]float64, m.lStart[n])
 	m.d = make([]float64, n)
-	m.y = make([]float64, n)
-	m.pattern = make([]int32, n)
-	m.lCount = make([]int32, n)
 	m.work = make([]float64, n)
 	return m
+}
+
+// setOrder sets the elimination order perm and its inverse.
+func (m *spd) setOrder(perm []int32) {
+	m.perm = perm
+	m.pinv = make([]int32, m.n)
+	for k, v := range perm {
+		m.pinv[v] = int32(k)
+	}
+}
+
+// postorder returns a postorder of the elimination tree (post[k] is the
+// column numbered k-th), each column's children visited in ascending order
+// of column count so that the child most like its parent comes last, or nil
+// when the order is already that postorder.
+func (m *spd) postorder() []int32 {
+	n := m.n
+	count := func(j int32) int { return m.lStart[j+1] - m.lStart[j] }
+	// Children lists, each sorted by count then index.
+	childStart := make([]int32, n+1)
+	for _, p := range m.parent {
+		if p >= 0 {
+			childStart[p+1]++
+		}
+	}
+	for i := range n {
+		childStart[i+1] += childStart[i]
+	}
+	children := make([]int32, childStart[n])
+	fill := append([]int32(nil), childStart[:n]...)
+	var roots []int32
+	for j, p := range m.parent {
+		if p >= 0 {
+			children[fill[p]] = int32(j)
+			fill[p]++
+		} else {
+			roots = append(roots, int32(j))
+		}
+	}
+	for i := range n {
+		c := children[childStart[i]:childStart[i+1]]
+		slices.SortStableFunc(c, func(a, b int32) int { return cmp.Compare(count(a), count(b)) })
+	}
+	post := make([]int32, 0, n)
+	type frame struct{ v, next int32 }
+	stack := make([]frame, 0, 64)
+	for _, r := range roots {
+		stack = append(stack, frame{r, childStart[r]})
+		for len(stack) > 0 {
+			top := &stack[len(stack)-1]
+			if top.next < childStart[top.v+1] {
+				c := children[top.next]
+				top.next++
+				stack = append(stack, frame{c, childStart[c]})
+				continue
+			}
+			post = append(post, top.v)
+			stack = stack[:len(stack)-1]
+		}
+	}
+	identity := true
+	for k, v := range post {
+		if int(v) != k {
+			identity = false
+			break
+		}
+	}
+	if identity {
+		return nil
+	}
+	return post
 }
 
 // buildUpper lays out the permuted strict upper triangle by columns, merging repeated pairs
@@ -168,18 +251,18 @@ func (m *spd) buildUpper(pairs [][2]int32) {
 func (m *spd) symbolic() {
 	n := m.n
 	m.parent = make([]int32, n)
-	m.flag = make([]int32, n)
+	flag := make([]int32, n)
 	colCount := make([]int, n)
 	for k := range n {
 		m.parent[k] = -1
-		m.flag[k] = int32(k)
+		flag[k] = int32(k)
 		for _, i := range m.rowIdx[m.colStart[k]:m.colStart[k+1]] {
-			for ; m.flag[i] != int32(k); i = m.parent[i] {
+			for ; flag[i] != int32(k); i = m.parent[i] {
 				if m.parent[i] == -1 {
 					m.parent[i] = int32(k)
 				}
 				colCount[i]++
-				m.flag[i] = int32(k)
+				flag[i] = int32(k)
 			}
 		}
 	}
@@ -206,70 +289,6 @@ func (m *spd) addPair(k int, v float64) {
 		m.diag[-s-1] += 2 * v
 	}
 }
-
-// factor computes the numeric factorisation P·A·Pᵀ = L·D·Lᵀ for the current values. For each
-// row k (up-looking form):
-//
-//	solve L[0:k,0:k]·D[0:k]·l = a   with a = (P·A·Pᵀ)[0:k, k], l = row k of L
-//	d_k = a_kk − Σ_i l_i² d_i
-//
-// It returns *notPositiveDefiniteError when some d_k <= 1e-300 or is not finite; the factor is
-// then unusable until the next successful call.
-func (m *spd) factor() error {
-	n := m.n
-	y, pattern, flag, parent := m.y, m.pattern, m.flag, m.parent
-	lRow, lVal, lStart, lCount, d := m.lRow, m.lVal, m.lStart, m.lCount, m.d
-	for k := range n {
-		// Scatter column k of the upper triangle into y and find the pattern of row k of L:
-		// the union of the tree paths from each entry's row up to k, in topological order.
-		k32 := int32(k)
-		flag[k] = k32
-		lCount[k] = 0
-		top := n
-		for p := m.colStart[k]; p < m.colStart[k+1]; p++ {
-			i := m.rowIdx[p]
-			y[i] += m.val[p]
-			length := 0
-			for ; flag[i] != k32; i = parent[i] {
-				pattern[length] = i
-				length++
-				flag[i] = k32
-			}
-			for length > 0 {
-				top--
-				length--
-				pattern[top] = pattern[length]
-			}
-		}
-		dk := m.diag[k]
-		// Sparse triangular solve for row k of L, one column i of the pattern at a time.
-		for _, i := range pattern[top:n] {
-			yi := y[i]
-			y[i] = 0
-			start := lStart[i]
-			end := start + int(lCount[i])
-			rows, vals := lRow[start:end], lVal[start:end:end]
-			vals = vals[:len(rows)]
-			for q, r := range rows {
-				y[r] -= vals[q] * yi
-			}
-			lki := yi / d[i]
-			dk -= lki * yi
-			lRow[end] = k32
-			lVal[end] = lki
-			lCount[i]++
-		}
-		if !(dk > pivotTiny) || math.IsInf(dk, 0) {
-			m.clearWork()
-			return &notPositiveDefiniteError{Row: int(m.perm[k]), Pivot: dk}
-		}
-		d[k] = dk
-	}
-	return nil
-}
-
-// clearWork resets the accumulator after an interrupted factorisation.
-func (m *spd) clearWork() { clear(m.y) }
 
 // solve overwrites b with A⁻¹·b (caller's numbering) using the last factorisation:
 //
@@ -310,4 +329,4 @@ func (m *spd) solve(b []float64) {
 }
 
 // factorNonzeros returns nnz(L), the number of entries of L strictly below the diagonal.
-func (m *spd) factorNonzeros() int { return m.lStart[m.n] }
+func (m *spd) factorNonzeros() int { return m.nnzExact }
