@@ -44,8 +44,9 @@ type FireFlowResult struct {
 	// AtCeiling reports that Available is FireFlowOptions.Ceiling and the
 	// criterion still held there.
 	AtCeiling bool
-	// Solves is the number of network solves done for this hydrant.
-	Solves int
+	// Solves is the number of network solves done for this hydrant, and
+	// Iterations the Newton iterations of those solves.
+	Solves, Iterations int
 	// Err is set when the hydrant is not a supplied junction or a solve
 	// failed; the other fields are then not to be reported.
 	Err error
@@ -76,12 +77,19 @@ const (
 // Search, with f(Q) = min_i p_i(Q) − Residual, decreasing in Q:
 //
 //  1. f(0) from base; if f(0) < 0 the available flow is 0.
-//  2. A trial solve at 1,000 gpm (or Ceiling if lower). Because the
+//  2. An estimate by pinned solves (Solver.SolvePinned): the extra demand
+//     that puts the hydrant at exactly the residual pressure, then, if
+//     another checked junction falls lower, the one that puts that junction
+//     at the residual (see pinned). The estimate is one end of the bracket
+//     (feasible or not by its own margin) and the first trial goes
+//     0.45·Tolerance beyond it, so that two solves usually close the
+//     bracket. When the pinned solves fail, the search starts as in 3.
+//  3. Otherwise a trial solve at 1,000 gpm (or Ceiling if lower). Because the
 //     pressure drop grows as Q^1.852 (Hazen-Williams), the root predicted
 //     from two points is linear interpolation in u = Q^1.852, which from
 //     the static point is the flow-test relation of NFPA 291:
 //     Q_R = Q_F·(H_R/H_F)^0.54, H_R = f(0), H_F = f(0) − f(Q_F).
-//  3. Until the bracket [lo, hi] (f(lo) ≥ 0 > f(hi)) is narrower than
+//  4. Until the bracket [lo, hi] (f(lo) ≥ 0 > f(hi)) is narrower than
 //     Tolerance: the next trial is that interpolation between the bracket
 //     ends (or extrapolation from the two highest feasible points, capped at
 //     Ceiling, while no infeasible point is known), kept 0.45·Tolerance
@@ -194,9 +202,10 @@ type fireSearch struct {
 	background []Flow
 	demand     []Flow // background plus the trial flow at the hydrant
 
-	hydrant int
-	warm    *Solution // buffer of the predicted warm-start flows
-	solves  int
+	hydrant    int
+	warm       *Solution // buffer of the predicted warm-start flows
+	solves     int
+	iterations int
 }
 
 // firePoint is one trial: extra flow, margin f = min p − Residual, the
@@ -216,7 +225,7 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		r.Err = fmt.Errorf("hydraulics: fire flow: node %d is not a supplied junction", h)
 		return r
 	}
-	f.hydrant, f.solves = h, 0
+	f.hydrant, f.solves, f.iterations = h, 0, 0
 	lo := f.point(0, f.base)
 	var hi firePoint
 	haveHi := false
@@ -227,7 +236,7 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		if haveHi {
 			r.Limiting = hi.worst
 		}
-		r.Solves = f.solves
+		r.Solves, r.Iterations = f.solves, f.iterations
 		if err != nil {
 			r.Err = fmt.Errorf("hydraulics: fire flow at node %d (id %q): %w", h, g.net.Nodes[h].ID, err)
 		}
@@ -239,6 +248,23 @@ func (f *fireSearch) run(h int) FireFlowResult {
 	tol, ceiling := float64(f.opt.Tolerance), float64(f.opt.Ceiling)
 	prev := lo // the feasible point below lo, for extrapolation
 	x := min(float64(fireTestFlow), ceiling)
+	if cand, ok := f.pinned(h, lo); ok {
+		// The estimate is one end of the bracket; the first trial, 0.45·Tolerance
+		// beyond it, is meant to be the other.
+		switch {
+		case cand.q >= ceiling:
+			x = ceiling
+		case cand.f >= 0:
+			prev, lo = lo, cand
+			x = min(ceiling, cand.q+0.45*tol)
+		default:
+			hi, haveHi = cand, true
+			x = max(lo.q+0.45*tol, cand.q-0.45*tol)
+			if x >= hi.q {
+				x = (lo.q + hi.q) / 2
+			}
+		}
+	}
 	lastSide, sameSide := 0, 0
 	for {
 		if f.solves >= maxFireSolves {
@@ -286,6 +312,53 @@ func (f *fireSearch) run(h int) FireFlowResult {
 	}
 }
 
+// pinned estimates the available flow with pinned solves (see
+// Solver.SolvePinned): the extra demand at the hydrant that brings the
+// pressure at a checked junction w to the residual exactly, first with w the
+// hydrant, then, while some other junction falls lower than w by more than
+// pinSlack, with w that junction, warm-starting from the solve before. It
+// returns the last estimate as a point of the search, or false when a
+// pinned solve failed or the limiting junction kept changing (the search
+// then starts from its usual first trial).
+func (f *fireSearch) pinned(h int, zero firePoint) (firePoint, bool) {
+	g := f.s.g
+	copy(f.demand, f.background)
+	warm := f.base
+	if f.cold {
+		warm = nil
+	}
+	w := h
+	tight := g.opt.Tolerance
+	g.opt.Tolerance = max(tight, pinTolerance)
+	defer func() { g.opt.Tolerance = tight }()
+	for range maxPinRounds {
+		head := Head(g.net.Nodes[w].Elevation) + HeadOf(f.opt.Residual)
+		f.solves++
+		sol, x, err := f.s.SolvePinned(f.demand, warm, h, w, head)
+		if sol != nil {
+			f.iterations += sol.Iterations
+		}
+		if err != nil || !(float64(x) > zero.q) {
+			return firePoint{}, false
+		}
+		p := f.point(float64(x), sol)
+		if p.worst == w || p.f >= -float64(pinSlack) {
+			return p, true
+		}
+		w, warm = p.worst, sol
+	}
+	return firePoint{}, false
+}
+
+// Pinned estimates (see pinned): at most maxPinRounds solves, and a
+// junction lower than the pinned one by no more than pinSlack (a thousandth
+// of a psi) does not move the pin.
+const (
+	maxPinRounds = 4
+	pinTolerance = 1e-3
+	pinSlack     = 0.001 * PoundPerSquareInch
+)
+
 // trial solves with extra flow q at the hydrant. The warm start is the
 // linear interpolation (or extrapolation) in Q of the pipe flows of the
 // bracket ends, or, before a bracket exists, of the two highest feasible
@@ -303,6 +376,9 @@ func (f *fireSearch) trial(q float64, prev, lo, hi firePoint, haveHi bool) (fire
 	}
 	f.solves++
 	sol, err := f.s.Solve(f.demand, warm)
+	if sol != nil {
+		f.iterations += sol.Iterations
+	}
 	if err != nil {
 		return firePoint{}, fmt.Errorf("solve at %.1f gpm: %w", Flow(q).GPM(), err)
 	}

@@ -22,6 +22,10 @@ func fireGrid(side int) (*Network, []int) {
 	return net, zone
 }
 
+// benchFireTolerance is the relative flow change at which each re-solve
+// stops, as in headroom run's sweep (cmd/headroom fireTolerance).
+const benchFireTolerance = 1e-6
+
 const (
 	fireBlock     = 15
 	fireTankGrade = Head(100) // m; elevations are 10–30 m
@@ -37,7 +41,7 @@ const (
 // all scenarios.
 func benchmarkFireFlow(b *testing.B, side, spacing int) {
 	net, zone := fireGrid(side)
-	s, err := NewSolver(net, &Options{DemandFactor: 1.5})
+	s, err := NewSolver(net, &Options{DemandFactor: 1.5, Tolerance: benchFireTolerance})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -52,13 +56,14 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 		}
 	}
 	b.ReportAllocs()
-	solves := 0
+	solves, iterations := 0, 0
 	for b.Loop() {
 		for _, r := range FireFlow(s, nil, base, hydrants, FireFlowOptions{Zone: zone}) {
 			if r.Err != nil {
 				b.Fatal(r.Err)
 			}
 			solves += r.Solves
+			iterations += r.Iterations
 		}
 	}
 	sec := b.Elapsed().Seconds()
@@ -67,6 +72,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 	b.ReportMetric(float64(solves)/sec, "solves/s")
 	b.ReportMetric(float64(len(net.Pipes))*float64(solves)/sec, "pipes/s")
 	b.ReportMetric(float64(solves)/float64(len(hydrants)*b.N), "solves/hydrant")
+	b.ReportMetric(float64(iterations)/float64(solves), "iters/solve")
 }
 
 // BenchmarkFireFlow20k: about 20,000 pipes (124×124 grid), every 10th

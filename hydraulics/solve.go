@@ -224,6 +224,9 @@ type gga struct {
 
 	m   *spd
 	rhs []float64 // right-hand side, then the solution
+
+	pin     *headPin  // the extra unknown of SolvePinned, or nil
+	pinWork []float64 // its buffer, kept between solves
 }
 
 func newGGA(net *Network, o Options) *gga {
@@ -374,7 +377,7 @@ func (s *gga) run() (*Solution, error) {
 	for iter < s.opt.MaxIterations {
 		iter++
 		if err := s.step(); err != nil {
-			return s.solution(iter, relChange), fmt.Errorf("hydraulics: iteration %d: %w", iter, err)
+			return s.solution(iter, relChange, math.NaN()), fmt.Errorf("hydraulics: iteration %d: %w", iter, err)
 		}
 		// Flow update and relative change.
 		var sumDQ, sumQ float64
@@ -393,11 +396,11 @@ func (s *gga) run() (*Solution, error) {
 		if relChange < s.opt.Tolerance || stalled(history) {
 			headRes, _ := s.headResidual()
 			if headRes <= float64(s.opt.HeadTolerance) && s.continuityOK() {
-				return s.solution(iter, relChange), nil
+				return s.solution(iter, relChange, headRes), nil
 			}
 		}
 	}
-	sol := s.solution(iter, relChange)
+	sol := s.solution(iter, relChange, math.NaN())
 	_, worst := s.headResidual()
 	return sol, &NotConvergedError{Iterations: iter, RelativeFlowChange: relChange, MaxHeadResidual: sol.MaxHeadResidual, Pipe: worst}
 }
@@ -431,6 +434,9 @@ func relativeChange(sumDQ, sumQ float64) float64 {
 // stores the new heads of the unknown nodes.
 func (s *gga) step() error {
 	s.m.clear()
+	if s.pin != nil {
+		s.demand[s.pin.demandNode] = s.pin.base
+	}
 	for i, k := range s.unknown {
 		if k >= 0 {
 			s.rhs[k] = -s.demand[i]
@@ -470,6 +476,11 @@ func (s *gga) step() error {
 		return err
 	}
 	s.m.solve(s.rhs)
+	if s.pin != nil {
+		if err := s.pin.apply(s.m, s.rhs, s.demand); err != nil {
+			return err
+		}
+	}
 	for i := range s.net.Nodes {
 		if k := s.unknown[i]; k >= 0 {
 			s.h[i] = s.rhs[k]
@@ -547,8 +558,9 @@ func (s *gga) continuityOK() bool {
 // epsilon is the float64 unit round-off, 2^−52.
 const epsilon = 0x1p-52
 
-// solution copies the state into a Solution.
-func (s *gga) solution(iter int, relChange float64) *Solution {
+// solution copies the state into a Solution; headRes is the largest head
+// residual at the current flows, or NaN to have it computed here.
+func (s *gga) solution(iter int, relChange, headRes float64) *Solution {
 	sol := &Solution{
 		Head:               make([]Head, len(s.h)),
 		Flow:               make([]Flow, len(s.q)),
@@ -567,7 +579,9 @@ func (s *gga) solution(iter int, relChange float64) *Solution {
 			sol.Flow[j] = Flow(q)
 		}
 	}
-	headRes, _ := s.headResidual()
+	if math.IsNaN(headRes) {
+		headRes, _ = s.headResidual()
+	}
 	sol.MaxHeadResidual = Head(headRes)
 	excess, supply := s.balance()
 	var maxExcess float64

@@ -56,6 +56,7 @@ func (s *Solver) Clone() *Solver {
 	g.shut = make([]bool, len(s.g.shut))
 	g.rhs = make([]float64, len(s.g.rhs))
 	g.m = s.g.m.cloneNumeric()
+	g.pin, g.pinWork = nil, nil
 	return &Solver{g: &g}
 }
 
@@ -116,12 +117,19 @@ const maxStatusRounds = 12
 // are as for Solve.
 func (s *Solver) Solve(demand []Flow, warm *Solution) (*Solution, error) {
 	g := s.g
+	g.pin = nil
 	if err := g.setDemand(demand); err != nil {
 		return nil, err
 	}
 	if err := g.start(warm); err != nil {
 		return nil, err
 	}
+	return g.rounds()
+}
+
+// rounds runs the Newton iteration and the check-valve and pump status
+// rules until no status changes (see Solve).
+func (g *gga) rounds() (*Solution, error) {
 	total := 0
 	for round := 1; ; round++ {
 		sol, err := g.run()
@@ -141,6 +149,80 @@ func (s *Solver) Solve(demand []Flow, warm *Solution) (*Solution, error) {
 			return sol, fmt.Errorf("hydraulics: check valve and pump status still changing after %d solves", round)
 		}
 	}
+}
+
+// headPin turns the demand at one junction into an unknown, X, fixed by
+// requiring the head at another (or the same) junction to be Target.
+type headPin struct {
+	demandRow, headRow int     // rows of the head system of the two junctions
+	demandNode         int     // the junction whose demand is base + X
+	base               float64 // its demand without X, m³/s
+	target             float64 // the head required at the pinned junction, m
+	x                  float64 // the current X, m³/s
+	g                  []float64
+}
+
+// SolvePinned solves like Solve with one more unknown: an extra demand X
+// at junction node, chosen so that the head at junction at is head (for a
+// fire flow: the largest draw at a hydrant that leaves at the residual
+// pressure). It returns the solution, whose Demand includes X, and X.
+//
+// Each Newton iteration solves the head system twice with one
+// factorisation: A·H₀ = F (the usual right-hand side with X = 0) and
+// A·g = e_node; the heads are H = H₀ − X·g, since X enters F as −X at node,
+// and X = (H₀[at] − head)/g[at] makes H[at] = head. This is Newton's method
+// on the system extended by X and the one head equation, so it converges
+// as Solve does. g[at] > 0 whenever both junctions are supplied (A⁻¹ of a
+// connected head matrix is positive); X may come out negative (a supply),
+// when even the demand without X leaves the head at below head.
+func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head Head) (*Solution, Flow, error) {
+	g := s.g
+	g.pin = nil
+	for _, i := range []int{node, at} {
+		if i < 0 || i >= len(g.unknown) || g.unknown[i] < 0 {
+			return nil, 0, fmt.Errorf("hydraulics: pinned solve: node %d is not a supplied junction", i)
+		}
+	}
+	if !isFinite(float64(head)) {
+		return nil, 0, fmt.Errorf("hydraulics: pinned solve: head %g m is not finite", float64(head))
+	}
+	if err := g.setDemand(demand); err != nil {
+		return nil, 0, err
+	}
+	if err := g.start(warm); err != nil {
+		return nil, 0, err
+	}
+	if len(g.pinWork) != g.nUnknown {
+		g.pinWork = make([]float64, g.nUnknown)
+	}
+	g.pin = &headPin{
+		demandRow: int(g.unknown[node]), headRow: int(g.unknown[at]), demandNode: node,
+		base: g.demand[node], target: float64(head), g: g.pinWork,
+	}
+	sol, err := g.rounds()
+	x := g.pin.x
+	g.demand[node] = g.pin.base
+	g.pin = nil
+	return sol, Flow(x), err
+}
+
+// apply finishes a head solve for the pin: rhs holds H₀ (solved with
+// the pinned junction's demand at its base); it solves for g, sets X and
+// the heads H = H₀ − X·g in rhs, and puts base + X into the demand.
+func (p *headPin) apply(m *spd, rhs []float64, demand []float64) error {
+	clear(p.g)
+	p.g[p.demandRow] = 1
+	m.solve(p.g)
+	gw := p.g[p.headRow]
+	if !(gw > 0) || !isFinite(gw) {
+		return fmt.Errorf("hydraulics: pinned solve: the pinned head does not depend on the demand (sensitivity %g)", gw)
+	}
+	p.x = (rhs[p.headRow] - p.target) / gw
+	for k, v := range p.g {
+		rhs[k] -= p.x * v
+	}
+	demand[p.demandNode] = p.base + p.x
+	return nil
 }
 
 // setDemand fills g.demand from demand (nil: the network's own).

@@ -318,11 +318,7 @@ func (m *spd) updateFromBlock(fk, lk, p0, p1 int, rel []int32, t int, w []float6
 		for c := fk; c <= lk; c++ {
 			off := m.lStart[c] + (lk - c) + p0
 			v := m.lVal[off : off+len(rel)]
-			s := v[a] * m.d[c]
-			tail := sum[a:]
-			for i, x := range v[a:] {
-				tail[i] += x * s
-			}
+			axpy(sum[a:], v[a:], v[a]*m.d[c])
 		}
 		col := w[int(rel[a])*t : int(rel[a]+1)*t]
 		for i := a; i < len(sum); i++ {
@@ -354,11 +350,7 @@ func (m *spd) factorBlock(f, width, t int, w []float64) error {
 		}
 		m.d[f+c] = dc
 		for c2 := c + 1; c2 < width; c2++ {
-			s := col[c2] / dc
-			col2 := w[c2*t+c2 : (c2+1)*t]
-			for i, x := range col[c2:] {
-				col2[i] -= x * s
-			}
+			axpy(w[c2*t+c2:(c2+1)*t], col[c2:], -col[c2]/dc)
 		}
 		inv := 1 / dc
 		dst := m.lVal[m.lStart[f+c]:m.lStart[f+c+1]]
@@ -367,4 +359,20 @@ func (m *spd) factorBlock(f, width, t int, w []float64) error {
 		}
 	}
 	return nil
+}
+
+// axpy adds s·x to dst (len(dst) ≥ len(x)), four entries at a time.
+func axpy(dst, x []float64, s float64) {
+	dst = dst[:len(x)]
+	i := 0
+	for ; i+4 <= len(x); i += 4 {
+		d, v := dst[i:i+4:i+4], x[i:i+4:i+4]
+		d[0] += s * v[0]
+		d[1] += s * v[1]
+		d[2] += s * v[2]
+		d[3] += s * v[3]
+	}
+	for ; i < len(x); i++ {
+		dst[i] += s * x[i]
+	}
 }
