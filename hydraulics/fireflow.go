@@ -252,6 +252,9 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		// The estimate is one end of the bracket; the first trial, 0.45·Tolerance
 		// beyond it, is meant to be the other.
 		switch {
+		case cand.q >= ceiling && cand.f >= 0:
+			lo, r.AtCeiling = cand, true
+			return finish(nil)
 		case cand.q >= ceiling:
 			x = ceiling
 		case cand.f >= 0:
@@ -334,7 +337,7 @@ func (f *fireSearch) pinned(h int, zero firePoint) (firePoint, bool) {
 	for range maxPinRounds {
 		head := Head(g.net.Nodes[w].Elevation) + HeadOf(f.opt.Residual)
 		f.solves++
-		sol, x, err := f.s.SolvePinned(f.demand, warm, h, w, head)
+		sol, x, err := f.s.SolvePinned(f.demand, warm, h, w, head, f.opt.Ceiling)
 		if sol != nil {
 			f.iterations += sol.Iterations
 		}

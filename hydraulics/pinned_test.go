@@ -24,7 +24,7 @@ func TestSolvePinnedSingleMain(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	sol, x, err := s.SolvePinned(nil, nil, 1, 1, target)
+	sol, x, err := s.SolvePinned(nil, nil, 1, 1, target, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -68,7 +68,7 @@ func TestSolvePinnedMatchesPlainSolve(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
 			target := base.Head[tc.at] - tc.dropMetres
-			got, x, err := s.SolvePinned(nil, base, tc.node, tc.at, target)
+			got, x, err := s.SolvePinned(nil, base, tc.node, tc.at, target, 0)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -94,7 +94,7 @@ func TestSolvePinnedMatchesPlainSolve(t *testing.T) {
 			}
 		})
 	}
-	if _, _, err := s.SolvePinned(nil, base, -1, 3, 10); err == nil {
+	if _, _, err := s.SolvePinned(nil, base, -1, 3, 10, 0); err == nil {
 		t.Error("pinned solve at node -1: no error")
 	}
 }

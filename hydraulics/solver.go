@@ -3,6 +3,7 @@ package hydraulics
 import (
 	"errors"
 	"fmt"
+	"math"
 )
 
 // Solver solves one network many times: for scenarios, for fire flows and
@@ -159,6 +160,7 @@ type headPin struct {
 	base               float64 // its demand without X, m³/s
 	target             float64 // the head required at the pinned junction, m
 	x                  float64 // the current X, m³/s
+	limit              float64 // the largest X allowed, m³/s (+Inf: none)
 	g                  []float64
 }
 
@@ -166,6 +168,11 @@ type headPin struct {
 // at junction node, chosen so that the head at junction at is head (for a
 // fire flow: the largest draw at a hydrant that leaves at the residual
 // pressure). It returns the solution, whose Demand includes X, and X.
+// maxDraw > 0 caps X: an iteration whose X would exceed it uses maxDraw,
+// so when the cap binds the solve ends as a plain solve with the extra
+// demand maxDraw and the head at `at` above head (a fire-flow search's
+// ceiling; the cap also keeps the first iterations, whose linearisation at
+// the background flows overestimates X several times, from straying far).
 //
 // Each Newton iteration solves the head system twice with one
 // factorisation: A·H₀ = F (the usual right-hand side with X = 0) and
@@ -175,7 +182,7 @@ type headPin struct {
 // as Solve does. g[at] > 0 whenever both junctions are supplied (A⁻¹ of a
 // connected head matrix is positive); X may come out negative (a supply),
 // when even the demand without X leaves the head at below head.
-func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head Head) (*Solution, Flow, error) {
+func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head Head, maxDraw Flow) (*Solution, Flow, error) {
 	g := s.g
 	g.pin = nil
 	for _, i := range []int{node, at} {
@@ -185,6 +192,10 @@ func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head H
 	}
 	if !isFinite(float64(head)) {
 		return nil, 0, fmt.Errorf("hydraulics: pinned solve: head %g m is not finite", float64(head))
+	}
+	limit := math.Inf(1)
+	if maxDraw > 0 {
+		limit = float64(maxDraw)
 	}
 	if err := g.setDemand(demand); err != nil {
 		return nil, 0, err
@@ -197,7 +208,7 @@ func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head H
 	}
 	g.pin = &headPin{
 		demandRow: int(g.unknown[node]), headRow: int(g.unknown[at]), demandNode: node,
-		base: g.demand[node], target: float64(head), g: g.pinWork,
+		base: g.demand[node], target: float64(head), limit: limit, g: g.pinWork,
 	}
 	sol, err := g.rounds()
 	x := g.pin.x
@@ -217,7 +228,7 @@ func (p *headPin) apply(m *spd, rhs []float64, demand []float64) error {
 	if !(gw > 0) || !isFinite(gw) {
 		return fmt.Errorf("hydraulics: pinned solve: the pinned head does not depend on the demand (sensitivity %g)", gw)
 	}
-	p.x = (rhs[p.headRow] - p.target) / gw
+	p.x = min((rhs[p.headRow]-p.target)/gw, p.limit)
 	for k, v := range p.g {
 		rhs[k] -= p.x * v
 	}
