@@ -79,13 +79,33 @@ type Result struct {
 //
 // Ranking is by score descending; ties go to the larger deficit flow, then
 // to the ID in ascending byte order, then to the lower Index, so the order is
-// the same on every run. Pipes that are not scorable keep Rank 0 and their
+// the same on every run. Scores and deficits are compared on the grids of
+// scoreResolution and deficitResolution, so that round-off cannot break a
+// tie that the data make. Pipes that are not scorable keep Rank 0 and their
 // caller's Reason.
 //
 // Rank returns an error, and no results, for an invalid cfg, a limit it
 // needs (MaxSlope, MaxVelocity) that is not positive, or a scorable pipe
 // with a negative or non-finite measure or a capacity that is not positive.
 func Rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
+	return rank(pipes, cfg, lim)
+}
+
+// Ranking resolutions: scores that agree to scoreResolution points, and
+// deficits that agree to deficitResolution m³/s (about 0.00002 gpm), are
+// ties. Mains in series with no demand between them carry one flow and so
+// one score, which a network solve reproduces only to round-off; without
+// the grids that round-off, not the data, would order them.
+const (
+	scoreResolution   = 1e-6
+	deficitResolution = 1e-9
+)
+
+// tieKey is x on a grid of the given step: a transitive comparison key
+// under which values that differ by round-off (almost always) agree.
+func tieKey(x, step float64) float64 { return math.Round(x / step) }
+
+func rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
 	}
@@ -107,10 +127,11 @@ func Rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
 	}
 	slices.SortStableFunc(order, func(a, b int) int {
 		ra, rb := results[a], results[b]
-		if c := cmp.Compare(rb.Score, ra.Score); c != 0 {
+		if c := cmp.Compare(tieKey(rb.Score, scoreResolution), tieKey(ra.Score, scoreResolution)); c != 0 {
 			return c
 		}
-		if c := cmp.Compare(pipes[b].Check.Deficit, pipes[a].Check.Deficit); c != 0 {
+		da, db := float64(pipes[a].Check.Deficit), float64(pipes[b].Check.Deficit)
+		if c := cmp.Compare(tieKey(db, deficitResolution), tieKey(da, deficitResolution)); c != 0 {
 			return c
 		}
 		if c := cmp.Compare(ra.ID, rb.ID); c != 0 {
