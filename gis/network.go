@@ -57,7 +57,7 @@ func NewNetwork(pipes []Pipe, t *Topology, supplies []Supply, demand []hydraulic
 			id += "/" + strconv.Itoa(part[l.Pipe])
 		}
 		net.Pipes = append(net.Pipes, hydraulics.Pipe{ID: id, From: l.From, To: l.To,
-			Length: l.Length, Diameter: p.Diameter, C: c[l.Pipe], Closed: p.Closed})
+			Length: l.Length, Diameter: p.Diameter, C: c[l.Pipe], Closed: p.Closed, CheckValve: p.CheckValve})
 	}
 	return net
 }

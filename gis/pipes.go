@@ -30,6 +30,7 @@ type Pipe struct {
 	InstallYear int     // 0 = unknown
 	MeasuredC   float64 // 0 = none
 	Closed      bool
+	CheckValve  bool // status is one of PipeSchema.CheckValues: flow first vertex → last only
 	Zone        string
 	Length      hydraulics.Length // geodesic on WGS84, grid length in a projected layer, or the mapped length field
 	// LengthSource says where Length came from: LengthGeodesic,
@@ -378,6 +379,9 @@ func (r *pipeReader) status(p *Pipe, f *geojson.Feature) {
 			p.Closed = true
 			return
 		}
+	}
+	if r.checkValve(p, st) {
+		return
 	}
 	if st == "" {
 		return

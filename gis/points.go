@@ -21,6 +21,9 @@ type Point struct {
 	Value  float64
 	Usable bool
 	Reason string
+	// Controls are a usable source's per-scenario grades and pump (see
+	// SourcesFromCollection); nil for other points.
+	Controls *SourceControls
 }
 
 // Plausible ground and water-surface elevations, in metres above the datum:
@@ -63,7 +66,12 @@ func SourcesFromCollection(file string, fc *geojson.FeatureCollection, s SourceS
 	k := pointKind{key: "sources", noun: "source", id: s.ID, name: s.Name, value: s.Grade,
 		valueKey: "sources.fields.grade", label: "grade", unit: float64(u), unitName: unitLabel(s.GradeUnit, "ft"),
 		check: elevationCheck(u)}
-	return readPoints(file, fc, k)
+	pts, probs, err := readPoints(file, fc, k)
+	if err != nil {
+		return pts, probs, err
+	}
+	more, err := readSourceControls(file, fc, s, pts)
+	return pts, append(probs, more...), err
 }
 
 // ReadDemands reads a GeoJSON demand layer; see [DemandsFromCollection].

@@ -21,6 +21,7 @@ type PipeSchema struct {
 	MeasuredC                           string   // optional: a positive number overrides aging; null, "", 0 = none
 	Status                              string   // optional
 	ClosedValues                        []string // status values meaning closed, case-insensitive; nil = {"closed"}
+	CheckValues                         []string // status values marking a check valve (flow first vertex → last only), case-insensitive; nil = none
 	Zone                                string   // optional
 	Length                              string   // optional: a positive value overrides the geodesic length
 	LengthUnit                          string   // "ft" (default) or "m"
@@ -32,6 +33,11 @@ type PipeSchema struct {
 type SourceSchema struct {
 	ID, Name, Grade string
 	GradeUnit       string
+	// Optional per-scenario grades (in GradeUnit; an empty value means the
+	// Grade field's) and pump curve points (see SourceControls).
+	GradeMaxDay, GradePeakHour, GradeFire                                     string
+	PumpShutoffHead, PumpDesignFlow, PumpDesignHead, PumpMaxFlow, PumpMaxHead string
+	PumpFlowUnit                                                              string // "gpm" (default), "lps", "mgd" or "cfs"
 }
 
 // DemandSchema maps demand properties. Demand (average day) is required;

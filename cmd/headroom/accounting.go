@@ -102,6 +102,9 @@ func (r *result) accounts() []layerAccount {
 	if len(r.net.Nodes) > len(r.supplies) {
 		demands.used = countUsable(r.demands)
 	}
+	if r.areas != nil {
+		r.areaAccount(&demands)
+	}
 	demands.leftOut = demands.in - demands.used
 	var avg hydraulics.Flow
 	for _, n := range r.net.Nodes {

@@ -454,7 +454,7 @@ func TestShapefileOutputsAllMoved(t *testing.T) {
 	}
 	files, folders := atomicSnapshot(t, out)
 	var want []string
-	for _, l := range []string{"pipes", "nodes"} {
+	for _, l := range []string{"pipes", "nodes", "hydrants"} { // fire flow is on: every junction is a hydrant
 		for _, part := range shapefileParts {
 			want = append(want, l+part)
 		}

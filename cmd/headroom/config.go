@@ -68,9 +68,14 @@ type PipeFields struct {
 	MeasuredC    string   `toml:"measured_c"`
 	Status       string   `toml:"status"`
 	ClosedValues []string `toml:"closed_values"`
+	CheckValues  []string `toml:"check_values"`
 	Zone         string   `toml:"zone"`
 	Length       string   `toml:"length"`
 	LengthUnit   string   `toml:"length_unit"`
+	// Flow is each pipe's flow from a model run elsewhere, read with
+	// solver.flows = "from_layer" (layerflows.go); FlowUnit is its unit.
+	Flow     string `toml:"flow"`
+	FlowUnit string `toml:"flow_unit"`
 }
 
 // SourceLayer names the fixed-grade supply points.
@@ -85,6 +90,7 @@ type SourceFields struct {
 	Name      string `toml:"name"`
 	Grade     string `toml:"grade"`
 	GradeUnit string `toml:"grade_unit"`
+	SourceControlFields
 }
 
 // DemandLayer names the demand points and the peaking factor.
@@ -144,6 +150,9 @@ type CriteriaConfig struct {
 type SolverConfig struct {
 	Tolerance     float64 `toml:"tolerance"`
 	MaxIterations int     `toml:"max_iterations"`
+	// Flows is "solve" (the default) or "from_layer": take each pipe's
+	// flow from pipes.fields.flow instead of solving (layerflows.go).
+	Flows string `toml:"flows"`
 }
 
 // WeightsConfig are the relative weights of the sub-scores.
@@ -184,6 +193,10 @@ type HydrantFields struct {
 	NeededFlow     string `toml:"needed_flow"`
 	NeededFlowUnit string `toml:"needed_flow_unit"`
 	Zone           string `toml:"zone"`
+
+	// LandUse is the hydrant's land-use or zoning class, looked up in
+	// fire_flow.needed_gpm_by_land_use (see needed.go).
+	LandUse string `toml:"land_use"`
 }
 
 // FireFlowConfig is the max-day-plus-fire scenario.
@@ -197,12 +210,18 @@ type FireFlowConfig struct {
 	NeededLps       *float64 `toml:"needed_lps"`
 	HydrantSearchFt *float64 `toml:"hydrant_search_ft"`
 	HydrantSearchM  *float64 `toml:"hydrant_search_m"`
+
+	// Needed fire flow by land-use class (hydrants.fields.land_use), in gpm
+	// or L/s; either may be given, not both (see needed.go).
+	NeededGpmByLandUse map[string]float64 `toml:"needed_gpm_by_land_use"`
+	NeededLpsByLandUse map[string]float64 `toml:"needed_lps_by_land_use"`
 }
 
 // Demand allocations (demands.allocation).
 const (
 	allocateNearestNode = "nearest_node" // each point to its nearest junction
 	allocateAlongPipe   = "along_pipe"   // each point to its nearest pipe, split between its ends by position
+	allocateAreas       = "areas"        // polygons, each total spread over the junctions inside by connected pipe length
 )
 
 // OutputConfig chooses the formats of the annotated layers; ranked.csv and
@@ -215,7 +234,7 @@ type OutputConfig struct {
 const (
 	formatGeoJSON    = "geojson" // pipes.geojson, nodes.geojson: WGS84 lon/lat (RFC 7946)
 	formatGeoPackage = "gpkg"    // pipes.gpkg, nodes.gpkg: the pipe layer's coordinate system
-	formatShapefile  = "shp"     // pipes.shp, nodes.shp (+ .shx .dbf .prj .cpg) and fields.csv
+	formatShapefile  = "shp"     // pipes.shp, nodes.shp, hydrants.shp (+ .shx .dbf .prj .cpg) and fields.csv
 )
 
 var defaultFormats = []string{formatGeoJSON, formatGeoPackage}
@@ -348,10 +367,11 @@ func (c *Config) validate() error {
 	switch c.Demands.Allocation {
 	case "":
 		c.Demands.Allocation = allocateNearestNode
-	case allocateNearestNode, allocateAlongPipe:
+	case allocateNearestNode, allocateAlongPipe, allocateAreas:
 	default:
-		errs = append(errs, fmt.Errorf("demands.allocation = %q: use %q or %q", c.Demands.Allocation, allocateNearestNode, allocateAlongPipe))
+		errs = append(errs, fmt.Errorf("demands.allocation = %q: use %q, %q or %q (polygons)", c.Demands.Allocation, allocateNearestNode, allocateAlongPipe, allocateAreas))
 	}
+	errs = append(errs, c.layerFlowValidate()...)
 	if c.Elevations.Neighbours == 0 {
 		c.Elevations.Neighbours = defaultNeighbours
 	}
@@ -376,6 +396,9 @@ func (c *Config) validate() error {
 		if _, err := q.value(c.system()); err != nil {
 			errs = append(errs, err)
 		}
+	}
+	if _, err := c.needTable(); err != nil {
+		errs = append(errs, err)
 	}
 	if _, ok := c.agingTable().Lookup(c.Aging.UnknownMaterial); !ok {
 		errs = append(errs, fmt.Errorf("aging.unknown_material = %q is not a material of the aging table", c.Aging.UnknownMaterial))
@@ -545,7 +568,12 @@ func (c *Config) hydrantSearch() quantity {
 }
 
 // fireFlowOn reports whether the run computes fire flow.
-func (c *Config) fireFlowOn() bool { return c.FireFlow.Enabled == nil || *c.FireFlow.Enabled }
+// With flows from the pipe layer there is no solve to search with, so no
+// fire flow either.
+func (c *Config) fireFlowOn() bool { return c.fireFlowEnabled() && !c.layerFlowsOn() }
+
+// fireFlowEnabled is the fire_flow.enabled key (unset means on).
+func (c *Config) fireFlowEnabled() bool { return c.FireFlow.Enabled == nil || *c.FireFlow.Enabled }
 
 func (c *Config) hydrantSchema() gis.HydrantSchema {
 	f := c.Hydrants.Fields
@@ -646,12 +674,13 @@ func (c *Config) pipeSchema() gis.PipeSchema {
 		ID: f.ID, Diameter: f.Diameter, DiameterUnit: f.DiameterUnit, Material: f.Material,
 		InstallYear: f.InstallYear, MeasuredC: f.MeasuredC, Status: f.Status,
 		ClosedValues: f.ClosedValues, Zone: f.Zone, Length: f.Length, LengthUnit: f.LengthUnit,
+		CheckValues: f.CheckValues,
 	}
 }
 
 func (c *Config) sourceSchema() gis.SourceSchema {
 	f := c.Sources.Fields
-	return gis.SourceSchema{ID: f.ID, Name: f.Name, Grade: f.Grade, GradeUnit: f.GradeUnit}
+	return f.ctlSchema(gis.SourceSchema{ID: f.ID, Name: f.Name, Grade: f.Grade, GradeUnit: f.GradeUnit})
 }
 
 func (c *Config) demandSchema() gis.DemandSchema {

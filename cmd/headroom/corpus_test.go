@@ -310,7 +310,7 @@ func checkAccounting(t *testing.T, dir, out, stdout string, rows [][]string, pip
 	in = readInputFeatures(t, cfg.path(cfg.Demands.Path))
 	used, sum := 0, 0.0
 	for k, f := range in {
-		if leftOut(demFile, k+1, "demand point left out", "demand left out") {
+		if leftOut(demFile, k+1, "demand point left out", "demand left out", "demand area left out") {
 			continue
 		}
 		used++
@@ -340,6 +340,9 @@ func checkAccounting(t *testing.T, dir, out, stdout string, rows [][]string, pip
 	sizes := map[string]int{}
 	for path, c := range counts {
 		sizes[filepath.Base(path)] = c[0]
+	}
+	if cfg.Hydrants.Path != "" { // hydrant rows (needed.go) name features of the hydrant layer
+		sizes[filepath.Base(cfg.Hydrants.Path)] = len(readInputFeatures(t, cfg.path(cfg.Hydrants.Path)))
 	}
 	for file, features := range listed {
 		for k := range features {

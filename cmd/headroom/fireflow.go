@@ -21,6 +21,11 @@ type fireHydrant struct {
 	needed hydraulics.Flow // from the layer, else fire_flow.needed
 	res    *hydraulics.FireFlowResult
 	note   string // why it has no result, when it has none
+
+	// land-use class and the property it was read from (needed.go), and
+	// where needed came from (needBasisField, ...).
+	landUse, landUseField string
+	basis                 string
 }
 
 // Fire-flow attribution (common practice, no single source): the mains a
@@ -59,9 +64,16 @@ func readHydrants(in *inputs, r *result) error {
 		fixed[s.Node] = true
 	}
 	r.problems = append(r.problems, gis.AttachHydrants(r.topo, hs, fixed, hydraulics.Length(cfg.si(cfg.hydrantSearch())))...)
-	for _, h := range hs {
-		r.hydrants = append(r.hydrants, fireHydrant{Hydrant: h})
+	classes, fields, probs := needLandUse(c.File, c.Features, cfg.Hydrants.Fields.LandUse)
+	r.problems = append(r.problems, probs...)
+	for k, h := range hs {
+		fh := fireHydrant{Hydrant: h}
+		if k < len(classes) {
+			fh.landUse, fh.landUseField = classes[k], fields[k]
+		}
+		r.hydrants = append(r.hydrants, fh)
 	}
+	r.problems = append(r.problems, cfg.needAssign(r.hydrants)...)
 	return nil
 }
 
@@ -89,14 +101,16 @@ func (r *result) fireFlow() error {
 	if err != nil {
 		return solverError{fmt.Errorf("fire flow: %w", err)}
 	}
+	if err := r.ctlSetFireGrades(solver); err != nil {
+		return solverError{fmt.Errorf("fire flow: %w", err)}
+	}
 	var nodes []int
 	var which []int // index into r.hydrants of each searched node
 	defaultNeeded := hydraulics.Flow(cfg.si(cfg.fireNeeded()))
 	for k := range r.hydrants {
 		h := &r.hydrants[k]
-		h.needed = hydraulics.Flow(h.Needed)
-		if h.needed == 0 {
-			h.needed = defaultNeeded
+		if h.basis == "" { // a junction (no hydrant layer): needed.go sets the layer's
+			h.needed, h.basis = defaultNeeded, needBasisDefault
 		}
 		switch {
 		case !h.Usable:
@@ -108,7 +122,7 @@ func (r *result) fireFlow() error {
 		}
 	}
 	opt := hydraulics.FireFlowOptions{Residual: hydraulics.Pressure(cfg.si(cfg.fireResidual())), Zone: r.nodeZones()}
-	results := hydraulics.FireFlow(solver, nil, r.maxDay(), nodes, opt)
+	results := hydraulics.FireFlow(solver, nil, r.ctlFireBase(), nodes, opt)
 	for k, res := range results {
 		h := &r.hydrants[which[k]]
 		if res.Err != nil {
@@ -157,7 +171,7 @@ func (r *result) nodeZones() []int {
 // at the highest unit head loss; a main charged by several hydrants keeps
 // the largest shortfall.
 func (r *result) chargeShortfalls(solver *hydraulics.Solver) {
-	base := r.maxDay()
+	base := r.ctlFireBase()
 	r.fireCharge = make([]*scoring.FireFlowShortfall, len(r.pipes))
 	for _, h := range r.hydrants {
 		if h.res == nil || h.res.Available >= h.needed {
@@ -180,6 +194,9 @@ func (r *result) chargeShortfalls(solver *hydraulics.Solver) {
 		}
 		var cs []carrier
 		for j, p := range r.net.Pipes {
+			if p.Pump != nil {
+				continue // a pump (controls.go) is no main to charge
+			}
 			if math.Abs(float64(sol.Flow[j]-base.Flow[j])) >= chargeShare*float64(h.needed) {
 				cs = append(cs, carrier{j, hydraulics.FrictionSlope(sol.Flow[j], p.Diameter, p.C)})
 			}
@@ -227,6 +244,7 @@ func (r *result) hydrantOutput() *gis.Layer {
 		{Name: "residual_pressure_" + p, Kind: gis.Real, Decimals: 1},
 		{Name: "max_day_pressure_" + p, Kind: gis.Real, Decimals: 1},
 		{Name: "note", Kind: gis.String},
+		{Name: "needed_basis", Kind: gis.String}, // last, so the columns before keep their order
 	}}
 	for _, h := range r.hydrants {
 		var feature, node, avail, deficit, class, limit, resid, static any
@@ -253,7 +271,7 @@ func (r *result) hydrantOutput() *gis.Layer {
 			g = h.At
 		}
 		l.Rows = append(l.Rows, gis.Row{Geometry: g,
-			Values: []any{h.ID, feature, node, s.Flow(h.needed), avail, deficit, class, limit, resid, static, note}})
+			Values: []any{h.ID, feature, node, s.Flow(h.needed), avail, deficit, class, limit, resid, static, note, h.basis}})
 	}
 	return l
 }

@@ -77,8 +77,13 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 				return err
 			}
 		}
-		outs = append(outs, output{"pipes.shp", shp(pipes)}, output{"nodes.shp", shp(nodes)},
-			output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer([]*gis.Layer{pipes, nodes}, short)) }})
+		layers := []*gis.Layer{pipes, nodes}
+		outs = append(outs, output{"pipes.shp", shp(pipes)}, output{"nodes.shp", shp(nodes)})
+		if fire {
+			layers = append(layers, hydrants)
+			outs = append(outs, output{"hydrants.shp", shp(hydrants)})
+		}
+		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
 	}
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
 	for _, o := range outs {
@@ -109,16 +114,16 @@ func (r *result) projected(l *gis.Layer) *gis.Layer {
 }
 
 // oneShapeType returns l with every geometry that is not of the layer's
-// kind (lines for pipes, points for nodes) written as a null shape: a
+// kind (lines for pipes, points for nodes and hydrants) written as a null shape: a
 // shapefile holds one shape type, and a pipe whose geometry was a point is
 // still a row, unscored, with its reason.
 func oneShapeType(l *gis.Layer) *gis.Layer {
 	keep := func(g orb.Geometry) bool {
 		switch g.(type) {
 		case orb.LineString, orb.MultiLineString:
-			return l.Name != "nodes"
+			return l.Name != "nodes" && l.Name != "hydrants"
 		case orb.Point:
-			return l.Name == "nodes"
+			return l.Name == "nodes" || l.Name == "hydrants"
 		}
 		return false
 	}

@@ -94,6 +94,9 @@ type result struct {
 	pipes        []gis.Pipe
 	sources      []gis.Point
 	demands      []gis.Point
+	areas        []gis.AreaDemand      // demand polygons, with demands.allocation = "areas" (then demands is nil)
+	layerFlows   []hydraulics.Flow     // per input pipe, its flow from the layer (solver.flows = "from_layer")
+	flowCheck    *hydraulics.FlowCheck // the check on those flows; nil when the network was solved
 	elevations   []gis.Point
 	topo         *gis.Topology
 	supplies     []gis.Supply
@@ -116,6 +119,8 @@ type result struct {
 	// pipeLayerCRS is the pipe layer's coordinate system, which the
 	// GeoPackage and shapefile outputs keep.
 	pipeLayerCRS *gis.CRS
+	ctlPumps     []gis.PumpStation    // pumped sources (controls.go)
+	ctlFire      *hydraulics.Solution // max day at the fire-flow grades, when they differ (controls.go)
 }
 
 // analyse runs the pipeline: read, build, allocate, age, solve, check, score.
@@ -155,6 +160,9 @@ func analyse(in *inputs) (*result, error) {
 			return gis.AllocateDemandsToPipes(t, r.pipes, d, f, w)
 		}
 	}
+	if cfg.Demands.Allocation == allocateAreas {
+		allocate = r.areaAllocate
+	}
 	demand, probs := allocate(topo, r.demands, fixed, warn)
 	r.problems = append(r.problems, probs...)
 	elev, err := gis.InterpolateElevations(topo, r.elevations, cfg.Elevations.Neighbours, cfg.Elevations.Power)
@@ -164,12 +172,13 @@ func analyse(in *inputs) (*result, error) {
 
 	r.cFactor, r.cBasis = agedC(cfg, r)
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
+	r.ctlPumps = gis.AddPumps(r.net, topo, r.sources, r.supplies)
 	r.parts = topo.Parts
 
 	if err := readHydrants(in, r); err != nil {
 		return nil, err
 	}
-	if err := r.solveScenarios(); err != nil {
+	if err := r.scenariosOrLayerFlows(); err != nil {
 		return nil, err
 	}
 	if err := r.fireFlow(); err != nil {
@@ -226,12 +235,21 @@ func readLayers(in *inputs, r *result) error {
 	if err := keep(probs, err); err != nil {
 		return err
 	}
+	if cfg.layerFlowsOn() {
+		if r.layerFlows, err = r.layerFlowRead(layers[0]); err != nil {
+			return err
+		}
+	}
 	src, dem, elev := layers[1], layers[2], layers[3]
 	r.sources, probs, err = gis.SourcesFromCollection(src.File, src.LonLat(), cfg.sourceSchema())
 	if err := keep(probs, err); err != nil {
 		return err
 	}
-	r.demands, probs, err = gis.DemandsFromCollection(dem.File, dem.LonLat(), cfg.demandSchema())
+	if cfg.Demands.Allocation == allocateAreas {
+		r.areas, probs, err = gis.AreaDemandsFromCollection(dem.File, areaLonLat(dem), cfg.demandSchema())
+	} else {
+		r.demands, probs, err = gis.DemandsFromCollection(dem.File, dem.LonLat(), cfg.demandSchema())
+	}
 	if err := keep(probs, err); err != nil {
 		return err
 	}
@@ -310,7 +328,7 @@ func (r *result) solveScenarios() error {
 	}
 	for i := range r.scenarios {
 		sc := &r.scenarios[i]
-		sol, err := hydraulics.Solve(r.net, &hydraulics.Options{
+		sol, err := hydraulics.Solve(r.ctlNetwork(sc.name), &hydraulics.Options{
 			DemandFactor:  sc.factor,
 			Tolerance:     cfg.Solver.Tolerance,
 			MaxIterations: cfg.Solver.MaxIterations,
@@ -338,7 +356,8 @@ func (r *result) notConverged(name string, nc *hydraulics.NotConvergedError) err
 	where := ""
 	if nc.Pipe >= 0 && nc.Pipe < len(r.net.Pipes) {
 		where = " at pipe " + r.net.Pipes[nc.Pipe].ID
-		if i := r.topo.Links[nc.Pipe].Pipe; i >= 0 && i < len(r.pipes) {
+		// links past the topology's are pumps (controls.go), not input pipes
+		if i := ctlInputPipe(r.topo, nc.Pipe); i >= 0 && i < len(r.pipes) {
 			where += fmt.Sprintf(" (%s feature %d)", filepath.Base(r.cfg.Pipes.Path), r.pipes[i].Index)
 		}
 	}

@@ -149,7 +149,11 @@ func TestDemoMassBalanceAndConvergence(t *testing.T) {
 	if sol.RelativeFlowChange >= defaultSolverTolerance {
 		t.Errorf("relative flow change %g, want < %g", sol.RelativeFlowChange, defaultSolverTolerance)
 	}
-	if rel := math.Abs(float64(sol.Supply-sol.Demand)) / float64(sol.Demand); rel > 1e-9 {
+	// The GGA flow update Q = Q − y + p·(H_a − H_b) meets continuity to the
+	// round-off of p·H (the solver's floor, 64·ε·max p·max|H|, about 1e-9 m³/s
+	// per node here), summed over some 1,400 junctions: 1e-8 of the demand is
+	// well above that and far below anything a planner could see.
+	if rel := math.Abs(float64(sol.Supply-sol.Demand)) / float64(sol.Demand); rel > 1e-8 {
 		t.Errorf("supply %g m³/s vs demand %g m³/s: relative imbalance %g", sol.Supply, sol.Demand, rel)
 	}
 	var add hydraulics.Flow

@@ -31,6 +31,7 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 	p("headroom: %s, analysis year %d, units %s\n\n", r.title, r.cfg.AnalysisYear, s)
 	r.summariseInputs(p)
 	r.summariseSolve(p)
+	r.ctlSummarisePumps(p)
 	r.summariseFireFlow(p)
 	r.summariseTop(&b)
 	p("\nCriteria (peak hour): unit head loss %.1f %s, velocity %.1f %s, pressure %.1f %s; design C %.0f for sizing\n",
@@ -88,8 +89,14 @@ func (r *result) pressureRange(sol *hydraulics.Solution) (lo, hi float64) {
 func (r *result) summariseSolve(p func(string, ...any)) {
 	s := r.cfg.system()
 	sol := r.sol
-	p("Scenarios (Global Gradient Algorithm; the criteria and scores read peak hour)\n")
-	for _, sc := range r.scenarios {
+	scenarios := r.scenarios
+	if r.flowCheck != nil {
+		r.layerFlowSummarise(p)
+		scenarios = nil // not solved
+	} else {
+		p("Scenarios (Global Gradient Algorithm; the criteria and scores read peak hour)\n")
+	}
+	for _, sc := range scenarios {
 		o := sc.sol
 		lo, hi := r.pressureRange(o)
 		p("  %-12s %.2f × average day: %d iterations, relative flow change %.1e, largest head-balance residual %.1e %s;\n",
@@ -180,6 +187,7 @@ func (r *result) summariseFireFlow(p func(string, ...any)) {
 		s.Pressure(hydraulics.Pressure(r.cfg.si(r.cfg.fireResidual()))), s.PressureLabel())
 	p("  %d %s, %d solved; NFPA 291 classes: AA %d, A %d, B %d, C %d\n", len(r.hydrants), what, solved,
 		classes["AA"], classes["A"], classes["B"], classes["C"])
+	p("%s", r.needSummary())
 	p("  %d short of their needed fire flow", len(short))
 	slices.SortStableFunc(short, func(a, b fireHydrant) int {
 		return cmp.Compare(float64(a.res.Available-a.needed), float64(b.res.Available-b.needed))

@@ -61,9 +61,12 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("measured_c = %s  # optional: a field-tested Hazen-Williams C overrides aging\n", str(f.MeasuredC))
 	p("status = %s  # optional\n", str(f.Status))
 	p("closed_values = %s  # status values meaning closed (no flow), any case\n", list(orDefaultList(f.ClosedValues, []string{"closed"})))
+	p("check_values = %s  # status values marking a check valve: flow only first vertex → last, any case\n", list(orDefaultList(f.CheckValues, []string{})))
 	p("zone = %s  # optional pressure zone\n", str(f.Zone))
 	p("length = %s  # optional: overrides the geodesic length when > 0\n", str(f.Length))
-	p("length_unit = %s  # \"ft\" or \"m\"\n\n", str(orDefault(f.LengthUnit, "ft")))
+	p("length_unit = %s  # \"ft\" or \"m\"\n", str(orDefault(f.LengthUnit, "ft")))
+	p("flow = %s  # optional: each pipe's flow from a model run elsewhere, positive first vertex → last; read with solver.flows = \"from_layer\"\n", str(f.Flow))
+	p("flow_unit = %s  # \"gpm\", \"lps\", \"mgd\", \"cfs\" or \"m3s\"\n\n", str(orDefault(f.FlowUnit, "gpm")))
 
 	sf := c.Sources.Fields
 	p("[sources]  # Point layer of fixed-grade supplies: tanks, reservoirs, pumped supplies at a set head\n")
@@ -72,7 +75,9 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("[sources.fields]\n")
 	p("id = %s\nname = %s\n", str(sf.ID), str(sf.Name))
 	p("grade = %s  # required: the hydraulic grade held (water-surface elevation)\n", str(sf.Grade))
-	p("grade_unit = %s  # \"ft\" or \"m\"\n\n", str(orDefault(sf.GradeUnit, "ft")))
+	p("grade_unit = %s  # \"ft\" or \"m\"\n", str(orDefault(sf.GradeUnit, "ft")))
+	ctlTemplate(p, sf)
+	p("\n")
 
 	df := c.Demands.Fields
 	p("[demands]  # Point layer of average-day demands (meters, parcels); each goes to its nearest junction\n")
@@ -82,7 +87,7 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("max_day_factor = %s  # max-day ÷ average-day demand (typically 1.5–2.0); default 2.0, at most peak_hour_factor\n",
 		num(orDefaultFloat(c.Demands.MaxDayFactor, math.Min(defaultMaxDayFactor, c.Demands.PeakHourFactor))))
 	q(c.warnDistance(), "a demand point farther than this from its node is listed in problems.csv")
-	p("allocation = %s  # \"nearest_node\": each point to its nearest junction; \"along_pipe\": to its nearest pipe, split between the pipe's ends by position\n",
+	p("allocation = %s  # \"nearest_node\": each point to its nearest junction; \"along_pipe\": to its nearest pipe, split between the pipe's ends by position; \"areas\": the layer holds polygons, each total spread over the junctions inside by connected pipe length\n",
 		str(orDefault(c.Demands.Allocation, allocateNearestNode)))
 	p("[demands.fields]\n")
 	p("id = %s\ndemand = %s  # required, average day\n", str(df.ID), str(df.Demand))
@@ -106,13 +111,15 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("id = %s\n", str(hf.ID))
 	p("needed_flow = %s  # optional: the needed fire flow set by the fire authority\n", str(hf.NeededFlow))
 	p("needed_flow_unit = %s  # \"gpm\", \"lps\", \"mgd\" or \"cfs\"\n", str(orDefault(hf.NeededFlowUnit, "gpm")))
-	p("zone = %s  # optional pressure zone\n\n", str(hf.Zone))
+	p("zone = %s  # optional pressure zone\n", str(hf.Zone))
+	p("land_use = %s  # optional land-use or zoning class: needed fire flow from [%s] when the hydrant has no needed_flow\n\n", str(hf.LandUse), c.needTableKey())
 
 	p("[fire_flow]  # max day plus fire flow at each hydrant, one at a time\n")
-	p("enabled = %t\n", c.fireFlowOn())
+	p("enabled = %t\n", c.fireFlowEnabled())
 	q(c.fireResidual(), "residual pressure kept at the hydrant and every junction of its zone")
 	q(c.fireNeeded(), "needed fire flow where the hydrant layer gives none (IFC Appendix B: 1,000 gpm for dwellings)")
 	q(c.hydrantSearch(), "a hydrant joins the nearest junction within this distance\n")
+	p("%s", needTemplate(c))
 
 	p("[network]\n")
 	q(c.snapTolerance(), "pipe ends closer than this become one node")
@@ -127,7 +134,8 @@ func writeConfig(w io.Writer, c *Config) error {
 
 	p("[solver]  # Global Gradient Algorithm\n")
 	p("tolerance = %s  # stop when the relative flow change is below this\n", num(orDefaultFloat(c.Solver.Tolerance, defaultSolverTolerance)))
-	p("max_iterations = %d\n\n", orDefaultInt(c.Solver.MaxIterations, defaultSolverIterations))
+	p("max_iterations = %d\n", orDefaultInt(c.Solver.MaxIterations, defaultSolverIterations))
+	p("flows = %s  # \"solve\"; or \"from_layer\": no solve, every criterion on pipes.fields.flow (average day, max day and fire flow skipped)\n\n", str(orDefault(c.Solver.Flows, flowsSolve)))
 
 	sc := c.scoringConfig()
 	p("[weights]  # relative weights of the sub-scores (normalised by their sum)\n")
