@@ -44,9 +44,10 @@ type FireFlowResult struct {
 	// AtCeiling reports that Available is FireFlowOptions.Ceiling and the
 	// criterion still held there.
 	AtCeiling bool
-	// Solves is the number of network solves done for this hydrant, and
-	// Iterations the Newton iterations of those solves.
-	Solves, Iterations int
+	// Solves is the number of network solves done for this hydrant,
+	// Iterations the Newton iterations of those solves and Factorisations
+	// the iterations among them that factorised the head matrix.
+	Solves, Iterations, Factorisations int
 	// Err is set when the hydrant is not a supplied junction or a solve
 	// failed; the other fields are then not to be reported.
 	Err error
@@ -202,10 +203,11 @@ type fireSearch struct {
 	background []Flow
 	demand     []Flow // background plus the trial flow at the hydrant
 
-	hydrant    int
-	warm       *Solution // buffer of the predicted warm-start flows
-	solves     int
-	iterations int
+	hydrant        int
+	warm           *Solution // buffer of the predicted warm-start flows
+	solves         int
+	iterations     int
+	factorisations int
 }
 
 // firePoint is one trial: extra flow, margin f = min p − Residual, the
@@ -225,7 +227,7 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		r.Err = fmt.Errorf("hydraulics: fire flow: node %d is not a supplied junction", h)
 		return r
 	}
-	f.hydrant, f.solves, f.iterations = h, 0, 0
+	f.hydrant, f.solves, f.iterations, f.factorisations = h, 0, 0, 0
 	lo := f.point(0, f.base)
 	var hi firePoint
 	haveHi := false
@@ -236,7 +238,7 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		if haveHi {
 			r.Limiting = hi.worst
 		}
-		r.Solves, r.Iterations = f.solves, f.iterations
+		r.Solves, r.Iterations, r.Factorisations = f.solves, f.iterations, f.factorisations
 		if err != nil {
 			r.Err = fmt.Errorf("hydraulics: fire flow at node %d (id %q): %w", h, g.net.Nodes[h].ID, err)
 		}
@@ -337,9 +339,10 @@ func (f *fireSearch) pinned(h int, zero firePoint) (firePoint, bool) {
 	for range maxPinRounds {
 		head := Head(g.net.Nodes[w].Elevation) + HeadOf(f.opt.Residual)
 		f.solves++
-		sol, x, err := f.s.SolvePinned(f.demand, warm, h, w, head, f.opt.Ceiling)
+		sol, x, err := f.s.solvePinned(f.demand, warm, h, w, head, f.opt.Ceiling, w != h)
 		if sol != nil {
 			f.iterations += sol.Iterations
+			f.factorisations += sol.Factorisations
 		}
 		if err != nil || !(float64(x) > zero.q) {
 			return firePoint{}, false
@@ -378,9 +381,10 @@ func (f *fireSearch) trial(q float64, prev, lo, hi firePoint, haveHi bool) (fire
 		warm = f.warmFlows(q, a, b)
 	}
 	f.solves++
-	sol, err := f.s.Solve(f.demand, warm)
+	sol, err := f.s.SolveNear(f.demand, warm)
 	if sol != nil {
 		f.iterations += sol.Iterations
+		f.factorisations += sol.Factorisations
 	}
 	if err != nil {
 		return firePoint{}, fmt.Errorf("solve at %.1f gpm: %w", Flow(q).GPM(), err)

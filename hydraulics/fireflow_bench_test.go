@@ -56,7 +56,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 		}
 	}
 	b.ReportAllocs()
-	solves, iterations := 0, 0
+	solves, iterations, factorisations := 0, 0, 0
 	for b.Loop() {
 		for _, r := range FireFlow(s, nil, base, hydrants, FireFlowOptions{Zone: zone}) {
 			if r.Err != nil {
@@ -64,6 +64,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 			}
 			solves += r.Solves
 			iterations += r.Iterations
+			factorisations += r.Factorisations
 		}
 	}
 	sec := b.Elapsed().Seconds()
@@ -73,6 +74,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 	b.ReportMetric(float64(len(net.Pipes))*float64(solves)/sec, "pipes/s")
 	b.ReportMetric(float64(solves)/float64(len(hydrants)*b.N), "solves/hydrant")
 	b.ReportMetric(float64(iterations)/float64(solves), "iters/solve")
+	b.ReportMetric(float64(factorisations)/float64(len(hydrants)*b.N), "factors/hydrant")
 }
 
 // BenchmarkFireFlow20k: about 20,000 pipes (124×124 grid), every 10th

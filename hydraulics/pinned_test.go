@@ -108,3 +108,58 @@ func pinSolver(t *testing.T, net *Network) *Solver {
 	}
 	return s
 }
+
+// TestSolveNearChordSteps: a re-solve at a demand 0.1 % away from the last,
+// warm-started from the last solution, converges on chord steps with the
+// last factorisation alone (no new factorisation) to the same
+// heads as an independent cold Solve (a new solver, ordering and
+// factorisation), to 1e-6 m; and a far re-solve, where chord steps would
+// crawl, factorises on every iteration after the first, failed, chord step.
+func TestSolveNearChordSteps(t *testing.T) {
+	net := streetGrid(30, 2, 9)
+	s := pinSolver(t, net)
+	base, err := s.Solve(nil, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cases := []struct {
+		name       string
+		factor     float64
+		wantChords int // iterations without a factorisation
+	}{
+		{"near", 1.001, -1}, // every iteration
+		{"far", 3, 1},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			demand := make([]Flow, len(net.Nodes))
+			for i, nd := range net.Nodes {
+				demand[i] = nd.Demand * Flow(tc.factor)
+			}
+			if _, err := s.Solve(nil, base); err != nil { // the last solve is the base again
+				t.Fatal(err)
+			}
+			got, err := s.SolveNear(demand, base)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want, err := Solve(net, &Options{DemandFactor: tc.factor, Tolerance: 1e-12})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for i := range net.Nodes {
+				if d := math.Abs(float64(got.Head[i] - want.Head[i])); d > 1e-6 {
+					t.Fatalf("node %d: SolveNear %.9f m, Solve %.9f m", i, float64(got.Head[i]), float64(want.Head[i]))
+				}
+			}
+			wantChords := tc.wantChords
+			if wantChords < 0 {
+				wantChords = got.Iterations
+			}
+			if chords := got.Iterations - got.Factorisations; chords != wantChords {
+				t.Errorf("%d factorisations in %d iterations: %d chord steps, want %d",
+					got.Factorisations, got.Iterations, chords, wantChords)
+			}
+		})
+	}
+}

@@ -39,8 +39,11 @@ type Solution struct {
 	// Unsupplied lists, ascending, the junctions that no path of open pipes
 	// joins to a fixed node. They are not solved.
 	Unsupplied []int
-	// Iterations is the number of Newton iterations done.
-	Iterations int
+	// Iterations is the number of Newton iterations done, and
+	// Factorisations those of them that factorised the head matrix afresh
+	// (the others were chord steps on an earlier factorisation; see
+	// Solver.SolveNear).
+	Iterations, Factorisations int
 	// RelativeFlowChange is Σ|ΔQ|/Σ|Q| at the last iteration. It may be
 	// above Options.Tolerance when the iteration stopped at the round-off
 	// floor (see Options.Tolerance).
@@ -227,6 +230,13 @@ type gga struct {
 
 	pin     *headPin  // the extra unknown of SolvePinned, or nil
 	pinWork []float64 // its buffer, kept between solves
+
+	// factored says m holds the factorisation at the conductances s.p (the
+	// last step succeeded); reuse asks the next run to start with chord
+	// steps on it (Solver.SolveNear).
+	factored, reuse bool
+	// factorisations counts the numeric factorisations of the current solve.
+	factorisations int
 }
 
 func newGGA(net *Network, o Options) *gga {
@@ -372,12 +382,20 @@ func (s *gga) lossAndConductance(j int, q float64) (h, p float64) {
 // run iterates to convergence and builds the Solution.
 func (s *gga) run() (*Solution, error) {
 	var relChange float64
-	var history []float64 // relative flow change per iteration
+	var history []float64 // relative flow change per Newton iteration
 	iter := 0
+	refactor := !s.reuse || !s.factored
+	s.reuse = false
 	for iter < s.opt.MaxIterations {
 		iter++
-		if err := s.step(); err != nil {
+		if err := s.step(refactor); err != nil {
+			s.factored = false
 			return s.solution(iter, relChange, math.NaN()), fmt.Errorf("hydraulics: iteration %d: %w", iter, err)
+		}
+		s.factored = true
+		chord := !refactor
+		if refactor {
+			s.factorisations++
 		}
 		// Flow update and relative change.
 		var sumDQ, sumQ float64
@@ -391,19 +409,34 @@ func (s *gga) run() (*Solution, error) {
 			sumQ += math.Abs(qNew)
 			s.q[j] = qNew
 		}
+		prevChange := relChange
 		relChange = relativeChange(sumDQ, sumQ)
-		history = append(history, relChange)
-		if relChange < s.opt.Tolerance || stalled(history) {
+		if chord {
+			// Keep the old factorisation while it converges fast (see chordFirst).
+			refactor = !(relChange < chordFirst) || (iter > 1 && !(relChange <= chordShrink*prevChange))
+		} else {
+			history = append(history, relChange)
+		}
+		if relChange < s.opt.Tolerance || (!chord && stalled(history)) {
 			headRes, _ := s.headResidual()
 			if headRes <= float64(s.opt.HeadTolerance) && s.continuityOK() {
 				return s.solution(iter, relChange, headRes), nil
 			}
+			refactor = true
 		}
 	}
 	sol := s.solution(iter, relChange, math.NaN())
 	_, worst := s.headResidual()
 	return sol, &NotConvergedError{Iterations: iter, RelativeFlowChange: relChange, MaxHeadResidual: sol.MaxHeadResidual, Pipe: worst}
 }
+
+// Chord steps (see Solver.SolveNear): the first must change the flows by
+// less than chordFirst (relative), and each later one must shrink the
+// change by chordShrink, or the next step factorises afresh.
+const (
+	chordFirst  = 1e-3
+	chordShrink = 0.1
+)
 
 // stallCeiling is the relative flow change below which a change that has
 // stopped falling is taken as the round-off floor.
@@ -431,9 +464,15 @@ func relativeChange(sumDQ, sumQ float64) float64 {
 }
 
 // step assembles and solves the head system at the current flows and
-// stores the new heads of the unknown nodes.
-func (s *gga) step() error {
-	s.m.clear()
+// stores the new heads of the unknown nodes. With refactor false it is a
+// chord step: the conductances s.p and the factorisation of the last full
+// step are kept, and only h_j(Q_j) and the right-hand side are new, so the
+// flow update Q_j ← Q_j + p̃_j·(H_a − H_b − h_j(Q_j)) still meets continuity
+// and has the same fixed point.
+func (s *gga) step(refactor bool) error {
+	if refactor {
+		s.m.clear()
+	}
 	if s.pin != nil {
 		s.demand[s.pin.demandNode] = s.pin.base
 	}
@@ -447,33 +486,38 @@ func (s *gga) step() error {
 			continue
 		}
 		h, p := s.lossAndConductance(j, s.q[j])
-		s.p[j], s.y[j] = p, p*h
+		if refactor {
+			s.p[j] = p
+		} else {
+			p = s.p[j]
+		}
+		s.y[j] = p * h
 		carry := s.q[j] - p*h // Q − y
 		a, b := s.ua[j], s.ub[j]
 		if a >= 0 {
-			s.m.addDiag(int(a), p)
 			s.rhs[a] -= carry // flow leaves a
 			if b < 0 {
 				s.rhs[a] += p * s.h[s.to[j]]
 			}
 		}
 		if b >= 0 {
-			s.m.addDiag(int(b), p)
 			s.rhs[b] += carry // flow enters b
 			if a < 0 {
 				s.rhs[b] += p * s.h[s.from[j]]
 			}
 		}
-		if k := s.pair[j]; k >= 0 {
-			s.m.addPair(int(k), -p)
+		if refactor {
+			s.assemble(j, p)
 		}
 	}
-	if err := s.m.factor(); err != nil {
-		var npd *notPositiveDefiniteError
-		if errors.As(err, &npd) {
-			return fmt.Errorf("head matrix not positive definite at a junction (pivot %g): %w", npd.Pivot, err)
+	if refactor {
+		if err := s.m.factor(); err != nil {
+			var npd *notPositiveDefiniteError
+			if errors.As(err, &npd) {
+				return fmt.Errorf("head matrix not positive definite at a junction (pivot %g): %w", npd.Pivot, err)
+			}
+			return err
 		}
-		return err
 	}
 	s.m.solve(s.rhs)
 	if s.pin != nil {
@@ -487,6 +531,20 @@ func (s *gga) step() error {
 		}
 	}
 	return nil
+}
+
+// assemble adds pipe j's conductance p to the head matrix.
+func (s *gga) assemble(j int, p float64) {
+	a, b := s.ua[j], s.ub[j]
+	if a >= 0 {
+		s.m.addDiag(int(a), p)
+	}
+	if b >= 0 {
+		s.m.addDiag(int(b), p)
+	}
+	if k := s.pair[j]; k >= 0 {
+		s.m.addPair(int(k), -p)
+	}
 }
 
 // headResidual returns max |H_from − H_to − h(Q)| over solved pipes, with h
@@ -565,6 +623,7 @@ func (s *gga) solution(iter int, relChange, headRes float64) *Solution {
 		Head:               make([]Head, len(s.h)),
 		Flow:               make([]Flow, len(s.q)),
 		Iterations:         iter,
+		Factorisations:     s.factorisations,
 		RelativeFlowChange: relChange,
 		FactorNonzeros:     s.m.factorNonzeros(),
 	}

@@ -58,6 +58,7 @@ func (s *Solver) Clone() *Solver {
 	g.rhs = make([]float64, len(s.g.rhs))
 	g.m = s.g.m.cloneNumeric()
 	g.pin, g.pinWork = nil, nil
+	g.factored, g.reuse = false, false
 	return &Solver{g: &g}
 }
 
@@ -118,20 +119,35 @@ const maxStatusRounds = 12
 // are as for Solve.
 func (s *Solver) Solve(demand []Flow, warm *Solution) (*Solution, error) {
 	g := s.g
-	g.pin = nil
+	reuse := g.reuse
+	g.pin, g.reuse = nil, false
 	if err := g.setDemand(demand); err != nil {
 		return nil, err
 	}
 	if err := g.start(warm); err != nil {
 		return nil, err
 	}
+	g.reuse = reuse
 	return g.rounds()
+}
+
+// SolveNear is Solve for a demand and warm start close to those of this
+// Solver's last solve, as the trials of a fire-flow search are: the
+// iteration starts with chord steps on the last factorisation (its
+// conductances stand in for the current ones, which near the last
+// solution differ little), and factorises afresh as soon as a chord step
+// changes the flows by 1e-3 or more, or shrinks the change by less than
+// ten times. The solution and its tests are those of Solve.
+func (s *Solver) SolveNear(demand []Flow, warm *Solution) (*Solution, error) {
+	s.g.reuse = true
+	return s.Solve(demand, warm)
 }
 
 // rounds runs the Newton iteration and the check-valve and pump status
 // rules until no status changes (see Solve).
 func (g *gga) rounds() (*Solution, error) {
 	total := 0
+	g.factorisations = 0
 	for round := 1; ; round++ {
 		sol, err := g.run()
 		total += sol.Iterations
@@ -183,8 +199,14 @@ type headPin struct {
 // connected head matrix is positive); X may come out negative (a supply),
 // when even the demand without X leaves the head at below head.
 func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head Head, maxDraw Flow) (*Solution, Flow, error) {
+	return s.solvePinned(demand, warm, node, at, head, maxDraw, false)
+}
+
+// solvePinned is SolvePinned; near starts with chord steps on the last
+// factorisation, as SolveNear does.
+func (s *Solver) solvePinned(demand []Flow, warm *Solution, node, at int, head Head, maxDraw Flow, near bool) (*Solution, Flow, error) {
 	g := s.g
-	g.pin = nil
+	g.pin, g.reuse = nil, false
 	for _, i := range []int{node, at} {
 		if i < 0 || i >= len(g.unknown) || g.unknown[i] < 0 {
 			return nil, 0, fmt.Errorf("hydraulics: pinned solve: node %d is not a supplied junction", i)
@@ -210,6 +232,7 @@ func (s *Solver) SolvePinned(demand []Flow, warm *Solution, node, at int, head H
 		demandRow: int(g.unknown[node]), headRow: int(g.unknown[at]), demandNode: node,
 		base: g.demand[node], target: float64(head), limit: limit, g: g.pinWork,
 	}
+	g.reuse = near
 	sol, err := g.rounds()
 	x := g.pin.x
 	g.demand[node] = g.pin.base
