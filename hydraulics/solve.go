@@ -519,9 +519,13 @@ func (s *gga) step(refactor bool) error {
 			return err
 		}
 	}
-	s.m.solve(s.rhs)
-	if s.pin != nil {
-		if err := s.pin.apply(s.m, s.rhs, s.demand); err != nil {
+	if s.pin == nil {
+		s.m.solve(s.rhs)
+	} else {
+		clear(s.pin.g)
+		s.pin.g[s.pin.demandRow] = 1
+		s.m.solve2(s.rhs, s.pin.g)
+		if err := s.pin.apply(s.rhs, s.demand); err != nil {
 			return err
 		}
 	}

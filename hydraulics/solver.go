@@ -240,13 +240,10 @@ func (s *Solver) solvePinned(demand []Flow, warm *Solution, node, at int, head H
 	return sol, Flow(x), err
 }
 
-// apply finishes a head solve for the pin: rhs holds H₀ (solved with
-// the pinned junction's demand at its base); it solves for g, sets X and
-// the heads H = H₀ − X·g in rhs, and puts base + X into the demand.
-func (p *headPin) apply(m *spd, rhs []float64, demand []float64) error {
-	clear(p.g)
-	p.g[p.demandRow] = 1
-	m.solve(p.g)
+// apply finishes a head solve for the pin: rhs holds H₀ and p.g holds g
+// (both solved by step, the pinned junction's demand at its base); it sets
+// X and the heads H = H₀ − X·g in rhs, and puts base + X into the demand.
+func (p *headPin) apply(rhs []float64, demand []float64) error {
 	gw := p.g[p.headRow]
 	if !(gw > 0) || !isFinite(gw) {
 		return fmt.Errorf("hydraulics: pinned solve: the pinned head does not depend on the demand (sensitivity %g)", gw)
@@ -313,6 +310,7 @@ func (m *spd) cloneNumeric() *spd {
 	c.d = make([]float64, len(m.d))
 	c.snWork = m.sn.newWork(m.n)
 	c.work = make([]float64, len(m.work))
+	c.work2 = nil
 	return &c
 }
 

@@ -51,6 +51,7 @@ type spd struct {
 	// Workspaces.
 	snWork supernodeWork
 	work   []float64
+	work2  [][2]float64 // solve2's, made on first use
 }
 
 // pivotTiny is the smallest pivot d_k that factor accepts.
@@ -325,6 +326,50 @@ func (m *spd) solve(b []float64) {
 	}
 	for k, v := range m.perm {
 		b[v] = w[k]
+	}
+}
+
+// solve2 is solve for two right-hand sides at once (b1 and b2 are both
+// overwritten), in one pass over L: the pinned solve of SolvePinned needs
+// two solves per iteration, and the pass over L is most of a solve's cost.
+func (m *spd) solve2(b1, b2 []float64) {
+	if len(m.work2) != m.n {
+		m.work2 = make([][2]float64, m.n)
+	}
+	w := m.work2
+	for k, v := range m.perm {
+		w[k] = [2]float64{b1[v], b2[v]}
+	}
+	for j := range m.n {
+		wj := w[j]
+		if wj[0] == 0 && wj[1] == 0 {
+			continue
+		}
+		start, end := m.lStart[j], m.lStart[j+1]
+		rows, vals := m.lRow[start:end], m.lVal[start:end]
+		for q, r := range rows {
+			v := vals[q]
+			w[r][0] -= v * wj[0]
+			w[r][1] -= v * wj[1]
+		}
+	}
+	for j := range m.n {
+		w[j][0] /= m.d[j]
+		w[j][1] /= m.d[j]
+	}
+	for j := m.n - 1; j >= 0; j-- {
+		start, end := m.lStart[j], m.lStart[j+1]
+		rows, vals := m.lRow[start:end], m.lVal[start:end]
+		s := w[j]
+		for q, r := range rows {
+			v := vals[q]
+			s[0] -= v * w[r][0]
+			s[1] -= v * w[r][1]
+		}
+		w[j] = s
+	}
+	for k, v := range m.perm {
+		b1[v], b2[v] = w[k][0], w[k][1]
 	}
 }
 
