@@ -223,8 +223,16 @@ func idString(v any) string {
 	}
 }
 
-// errMissing marks a value that is absent, null or blank.
-var errMissing = errors.New("missing")
+// ErrMissing marks a value that is absent, null or blank (see Number).
+var ErrMissing = errors.New("missing")
+
+// errMissing is ErrMissing under the name the readers use.
+var errMissing = ErrMissing
+
+// Number reads a numeric attribute value as the layer readers do: a JSON
+// number, or a string holding one; ErrMissing for nil and blank strings,
+// and an error saying why otherwise (NaN and ±Inf are refused).
+func Number(v any) (float64, error) { return number(v) }
 
 // number reads a numeric property: a JSON number, or a string holding one
 // ("8", " 8.5 "). It returns errMissing for nil and blank strings, and an

@@ -141,7 +141,11 @@ func diameterUnit(u, key string) (hydraulics.Length, error) {
 	return 0, fmt.Errorf("unit %q is not \"in\" or \"mm\"; check the config key %s", u, key)
 }
 
-// flowUnit returns the flow of one unit named u ("gpm" default, "lps", "mgd", "cfs").
+// FlowUnit returns the flow of one unit named u: "gpm" (the default for
+// ""), "lps" or "l/s", "mgd", "cfs", "m3s" or "m3/s". key is the config key
+// that named it, for the message.
+func FlowUnit(u, key string) (hydraulics.Flow, error) { return flowUnit(u, key) }
+
 func flowUnit(u, key string) (hydraulics.Flow, error) {
 	switch strings.ToLower(strings.TrimSpace(u)) {
 	case "", "gpm":
@@ -152,8 +156,10 @@ func flowUnit(u, key string) (hydraulics.Flow, error) {
 		return hydraulics.MillionGallonsPerDay, nil
 	case "cfs":
 		return hydraulics.CubicFootPerSecond, nil
+	case "m3s", "m3/s":
+		return hydraulics.CubicMetrePerSecond, nil
 	}
-	return 0, fmt.Errorf("unit %q is not \"gpm\", \"lps\", \"mgd\" or \"cfs\"; check the config key %s", u, key)
+	return 0, fmt.Errorf("unit %q is not \"gpm\", \"lps\", \"mgd\", \"cfs\" or \"m3s\"; check the config key %s", u, key)
 }
 
 // ErrNoUsable is wrapped by the error returned when a layer has features but

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -68,22 +67,14 @@ func (c *Config) layerFlowValidate() []error {
 	return errs
 }
 
-// layerFlowUnit is the unit of pipes.fields.flow: the spellings the demand
-// field takes ("gpm", "lps" or "l/s", "mgd", "cfs") and "m3s" (m³/s); "" is gpm.
+// layerFlowUnit is the unit of pipes.fields.flow, spelt as the demand
+// field's unit is (gis.FlowUnit); "" is gpm.
 func layerFlowUnit(u string) (hydraulics.Flow, error) {
-	switch strings.ToLower(strings.TrimSpace(u)) {
-	case "", "gpm":
-		return hydraulics.USGallonPerMinute, nil
-	case "lps", "l/s":
-		return hydraulics.LitrePerSecond, nil
-	case "mgd":
-		return hydraulics.MillionGallonsPerDay, nil
-	case "cfs":
-		return hydraulics.CubicFootPerSecond, nil
-	case "m3s", "m3/s":
-		return hydraulics.CubicMetrePerSecond, nil
+	q, err := gis.FlowUnit(u, "pipes.fields.flow_unit")
+	if err != nil {
+		return 0, fmt.Errorf("pipes.fields.flow_unit = %q: use \"gpm\", \"lps\", \"mgd\", \"cfs\" or \"m3s\"", u)
 	}
-	return 0, fmt.Errorf("pipes.fields.flow_unit = %q: use \"gpm\", \"lps\", \"mgd\", \"cfs\" or \"m3s\"", u)
+	return q, nil
 }
 
 // layerFlowRead reads each input pipe's flow (m³/s) from the pipe layer's
@@ -160,44 +151,15 @@ func layerFlowLookup(props map[string]any, name string) (any, string) {
 	return nil, name
 }
 
-// layerFlowNumber reads a property as a finite number, or says why it is not
-// one ("is missing", "\"n/a\" is not a number").
+// layerFlowNumber reads a property as a finite number (gis.Number), or says
+// why it is not one ("is missing", "\"n/a\" is not a number").
 func layerFlowNumber(v any) (float64, string) {
-	var x float64
-	switch t := v.(type) {
-	case nil:
+	x, err := gis.Number(v)
+	switch {
+	case errors.Is(err, gis.ErrMissing):
 		return 0, "is missing"
-	case json.Number:
-		f, err := strconv.ParseFloat(t.String(), 64)
-		if err != nil {
-			return 0, fmt.Sprintf("%q is not a number", t.String())
-		}
-		x = f
-	case float64:
-		x = t
-	case float32:
-		x = float64(t)
-	case int:
-		x = float64(t)
-	case int64:
-		x = float64(t)
-	case int32:
-		x = float64(t)
-	case string:
-		s := strings.TrimSpace(t)
-		if s == "" {
-			return 0, "is missing"
-		}
-		f, err := strconv.ParseFloat(s, 64)
-		if err != nil {
-			return 0, fmt.Sprintf("%q is not a number", t)
-		}
-		x = f
-	default:
-		return 0, fmt.Sprintf("%v is not a number", v)
-	}
-	if math.IsNaN(x) || math.IsInf(x, 0) {
-		return 0, fmt.Sprintf("%v is not a finite number", x)
+	case err != nil:
+		return 0, err.Error()
 	}
 	return x, ""
 }
