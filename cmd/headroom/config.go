@@ -37,6 +37,8 @@ type Config struct {
 	Output       OutputConfig   `toml:"output"`
 	Hydrants     HydrantLayer   `toml:"hydrants"`
 	FireFlow     FireFlowConfig `toml:"fire_flow"`
+	Upsizing     UpsizingConfig `toml:"upsizing"`
+	Sizing       SizingConfig   `toml:"sizing"` // sizes.go
 
 	// dir is the folder relative paths are read from; file is the config's
 	// own name for messages ("built-in demo" when there is none).
@@ -56,6 +58,9 @@ type LayerFile struct {
 type PipeLayer struct {
 	LayerFile
 	Fields PipeFields `toml:"fields"`
+	// DiameterIs says what the diameter field holds: "nominal" (default)
+	// or "inside" diameters (sizes.go).
+	DiameterIs string `toml:"diameter_is"`
 }
 
 // PipeFields maps headroom's pipe attributes to the layer's property names.
@@ -64,12 +69,14 @@ type PipeFields struct {
 	Diameter     string   `toml:"diameter"`
 	DiameterUnit string   `toml:"diameter_unit"`
 	Material     string   `toml:"material"`
+	Class        string   `toml:"class"` // pressure class or dimension ratio: picks the size table (sizes.go)
 	InstallYear  string   `toml:"install_year"`
 	MeasuredC    string   `toml:"measured_c"`
 	Status       string   `toml:"status"`
 	ClosedValues []string `toml:"closed_values"`
 	CheckValues  []string `toml:"check_values"`
 	Zone         string   `toml:"zone"`
+	LinedYear    string   `toml:"lined_year"` // year lined or rehabilitated: restarts the age (aging.go)
 	Length       string   `toml:"length"`
 	LengthUnit   string   `toml:"length_unit"`
 	// Flow is each pipe's flow from a model run elsewhere, read with
@@ -244,6 +251,10 @@ type AgingConfig struct {
 	UnknownAgeYears float64       `toml:"unknown_age_years"`
 	UnknownMaterial string        `toml:"unknown_material"`
 	Curves          []CurveConfig `toml:"curve"`
+	// Growth, LinedCurve and ZoneFactor: see aging.go.
+	Growth     []GrowthConfig     `toml:"growth"`
+	LinedCurve string             `toml:"lined_curve"`
+	ZoneFactor map[string]float64 `toml:"zone_factor"`
 }
 
 // CurveConfig is one material's C by age, linearly interpolated.
@@ -372,6 +383,8 @@ func (c *Config) validate() error {
 		errs = append(errs, fmt.Errorf("demands.allocation = %q: use %q, %q or %q (polygons)", c.Demands.Allocation, allocateNearestNode, allocateAlongPipe, allocateAreas))
 	}
 	errs = append(errs, c.layerFlowValidate()...)
+	errs = append(errs, c.sizeValidate()...)
+	errs = append(errs, c.cureValidate()...)
 	if c.Elevations.Neighbours == 0 {
 		c.Elevations.Neighbours = defaultNeighbours
 	}
@@ -400,8 +413,9 @@ func (c *Config) validate() error {
 	if _, err := c.needTable(); err != nil {
 		errs = append(errs, err)
 	}
-	if _, ok := c.agingTable().Lookup(c.Aging.UnknownMaterial); !ok {
-		errs = append(errs, fmt.Errorf("aging.unknown_material = %q is not a material of the aging table", c.Aging.UnknownMaterial))
+	errs = append(errs, c.ageValidate()...)
+	if _, ok := c.ageModels().Lookup(c.Aging.UnknownMaterial); !ok {
+		errs = append(errs, fmt.Errorf("aging.unknown_material = %q is not a material of the aging models", c.Aging.UnknownMaterial))
 	}
 	if err := c.scoringConfig().Validate(); err != nil {
 		errs = append(errs, err)
@@ -620,7 +634,7 @@ func (c *Config) limits() hydraulics.Limits {
 		MaxVelocity: hydraulics.Velocity(c.si(c.maxVelocity())),
 		MinPressure: hydraulics.Pressure(c.si(c.minPressure())),
 		DesignC:     c.Criteria.DesignC,
-		Sizes:       hydraulics.StandardSizes(),
+		Sizes:       c.replacementSizes(),
 		MinNominal:  hydraulics.Length(c.si(c.minDiameter())),
 	}
 }

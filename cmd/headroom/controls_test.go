@@ -88,6 +88,8 @@ func ctlWrite(t *testing.T, town ctlTown) *result {
 analysis_year = 2026
 [pipes]
 path = "pipes.geojson"
+# The independent checks in these tests use the layer's diameter as the inside diameter.
+diameter_is = "inside"
 [pipes.fields]
 id = "id"
 diameter = "dia_in"

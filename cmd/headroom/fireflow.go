@@ -246,7 +246,8 @@ func (r *result) hydrantOutput() *gis.Layer {
 		{Name: "note", Kind: gis.String},
 		{Name: "needed_basis", Kind: gis.String}, // last, so the columns before keep their order
 	}}
-	for _, h := range r.hydrants {
+	l.Columns = append(l.Columns, r.cureHydrantColumns()...) // available_after_gpm (upsize.go)
+	for k, h := range r.hydrants {
 		var feature, node, avail, deficit, class, limit, resid, static any
 		if h.Index > 0 {
 			feature = h.Index
@@ -271,7 +272,7 @@ func (r *result) hydrantOutput() *gis.Layer {
 			g = h.At
 		}
 		l.Rows = append(l.Rows, gis.Row{Geometry: g,
-			Values: []any{h.ID, feature, node, s.Flow(h.needed), avail, deficit, class, limit, resid, static, note, h.basis}})
+			Values: append([]any{h.ID, feature, node, s.Flow(h.needed), avail, deficit, class, limit, resid, static, note, h.basis}, r.cureHydrantValues(k)...)})
 	}
 	return l
 }

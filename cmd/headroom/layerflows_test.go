@@ -40,6 +40,8 @@ analysis_year = 2026
 
 [pipes]
 path = "mains.geojson"
+# The independent checks in these tests use the layer's diameter as the inside diameter.
+diameter_is = "inside"
 
 [pipes.fields]
 id = "main"
@@ -74,6 +76,11 @@ elevation = "z_ft"
 
 [solver]
 flows = "FLOWS"
+
+# A run on given flows has no fire-flow sweep; the solved run it is
+# compared with must not charge fire-flow shortfalls to its mains either.
+[fire_flow]
+enabled = false
 `
 
 var (
@@ -342,7 +349,9 @@ func TestLayerFlowConfig(t *testing.T) {
 			}
 		})
 	}
-	cfg, err := decodeConfig(strings.Replace(layerFlowConfig, "flows = \"FLOWS\"\n", "", 1), "t.toml")
+	defaults := strings.Replace(layerFlowConfig, "flows = \"FLOWS\"\n", "", 1)
+	defaults = strings.Replace(defaults, "enabled = false\n", "", 1) // fire flow at its default
+	cfg, err := decodeConfig(defaults, "t.toml")
 	if err != nil {
 		t.Fatal(err)
 	}

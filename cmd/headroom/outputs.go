@@ -29,7 +29,7 @@ type output struct {
 
 // writeOutputs writes the result files into dir and returns their paths:
 // ranked.csv, then the pipe and node layers in each configured format, then
-// problems.csv. The set is all-or-nothing (see commitOutputs): every file is
+// c_calibration.csv and problems.csv. The set is all-or-nothing (see commitOutputs): every file is
 // written into a staging folder inside dir and renamed into place only when
 // all are complete, so a failure or a kill while writing leaves the
 // previous outputs untouched; only a kill during the final renames (well
@@ -85,6 +85,8 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		}
 		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
 	}
+	calibration := r.ageCalibrationLayer()
+	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
 	for _, o := range outs {
 		for _, f := range producedFiles(o.name) {
@@ -213,9 +215,12 @@ func (r *result) pipeColumns() []gis.Column {
 		{Name: "material", Kind: gis.String},
 		{Name: "install_year", Kind: gis.Integer},
 		{Name: "diameter_" + d, Kind: gis.Real, Decimals: 2},
+		{Name: "inside_diameter_" + d, Kind: gis.Real, Decimals: 3}, // sizes.go
 		{Name: "length_" + l, Kind: gis.Real, Decimals: 1},
 		{Name: "c_factor", Kind: gis.Real, Decimals: 1},
 		{Name: "c_basis", Kind: gis.String},
+		{Name: "c_model", Kind: gis.Real, Decimals: 1},
+		{Name: "c_source", Kind: gis.String},
 		{Name: "from_node", Kind: gis.String},
 		{Name: "to_node", Kind: gis.String},
 		{Name: "flow_" + q, Kind: gis.Real, Decimals: 2},
@@ -225,6 +230,7 @@ func (r *result) pipeColumns() []gis.Column {
 		{Name: "deficit_" + q, Kind: gis.Real, Decimals: 1},
 		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 1},
 	}
+	cols = append(cols, r.curePipeColumns()...) // recommended_diameter_in (upsize.go)
 	for _, sc := range r.otherScenarios() {
 		cols = append(cols, gis.Column{Name: sc.prefix + "flow_" + q, Kind: gis.Real, Decimals: 2},
 			gis.Column{Name: sc.prefix + "headloss_" + h, Kind: gis.Real, Decimals: 3})
@@ -273,8 +279,15 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]a
 		"diameter_" + d: s.Diameter(p.Diameter), "length_" + l: s.Length(p.Length),
 		"c_factor": r.cFactor[i], "c_basis": r.cBasis[i], "reasons": sc.Reasons,
 	}
+	for k, x := range r.ageValues(i) { // c_model, c_source (aging.go); sets keys only, so order does not matter
+		v[k] = x
+	}
+	r.curePipeValues(i, v) // recommended_diameter_in (upsize.go)
 	if p.InstallYear > 0 {
 		v["install_year"] = p.InstallYear
+	}
+	if i < len(r.inside) && r.inside[i] > 0 {
+		v["inside_diameter_"+d] = s.Diameter(r.inside[i])
 	}
 	if len(r.parts[i]) > 0 {
 		e := r.topo.Ends[i]
@@ -341,6 +354,7 @@ func (r *result) nodeLayer() *gis.Layer {
 		layer.Columns = append(layer.Columns, gis.Column{Name: sc.prefix + "head_" + e, Kind: gis.Real, Decimals: 3},
 			gis.Column{Name: sc.prefix + "pressure_" + p, Kind: gis.Real, Decimals: 2})
 	}
+	layer.Columns = append(layer.Columns, r.cureNodeColumns()...) // pressure_after_psi (upsize.go)
 	sourceOf := make(map[int]string, len(r.supplies))
 	for _, sp := range r.supplies {
 		sourceOf[sp.Node] = r.sources[sp.Source].ID
@@ -372,6 +386,7 @@ func (r *result) nodeLayer() *gis.Layer {
 			}
 			vals = append(vals, head, pres)
 		}
+		vals = append(vals, r.cureNodeValues(i)...) // pressure_after_psi (upsize.go)
 		layer.Rows = append(layer.Rows, gis.Row{Geometry: r.topo.Nodes[i].At, Values: vals})
 	}
 	return layer

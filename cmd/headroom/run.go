@@ -104,6 +104,9 @@ type result struct {
 	parts        [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
 	cFactor      []float64
 	cBasis       []string
+	inside       []hydraulics.Length          // per input pipe: the inside diameter the hydraulics use (sizes.go)
+	sizeClass    []string                     // per input pipe: the size table it came from (sizes.go)
+	age          *ageResult                   // the aging models' C, source and calibration (aging.go)
 	hydrants     []fireHydrant                // the fire-flow sweep's hydrants and results
 	hydrantLayer bool                         // hydrants came from a layer (else every junction)
 	fireCharge   []*scoring.FireFlowShortfall // per input pipe: the shortfall it is charged with
@@ -121,6 +124,11 @@ type result struct {
 	pipeLayerCRS *gis.CRS
 	ctlPumps     []gis.PumpStation    // pumped sources (controls.go)
 	ctlFire      *hydraulics.Solution // max day at the fire-flow grades, when they differ (controls.go)
+
+	// the upsizing loop (upsize.go): its result, nil when off, and the
+	// index into hydrants of each hydrant it checks
+	cure        *hydraulics.UpsizeResult
+	cureHydrant []int
 }
 
 // analyse runs the pipeline: read, build, allocate, age, solve, check, score.
@@ -170,10 +178,11 @@ func analyse(in *inputs) (*result, error) {
 		return nil, fmt.Errorf("%s: %w", cfg.Elevations.Path, err)
 	}
 
-	r.cFactor, r.cBasis = agedC(cfg, r)
+	r.ageDerate()
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
 	r.ctlPumps = gis.AddPumps(r.net, topo, r.sources, r.supplies)
 	r.parts = topo.Parts
+	r.sizeApply()
 
 	if err := readHydrants(in, r); err != nil {
 		return nil, err
@@ -201,6 +210,9 @@ func analyse(in *inputs) (*result, error) {
 	}
 	r.scores = scores
 	r.flagNegativePressure(negative)
+	if err := r.cureRun(); err != nil {
+		return nil, err
+	}
 	return r, nil
 }
 
@@ -235,6 +247,8 @@ func readLayers(in *inputs, r *result) error {
 	if err := keep(probs, err); err != nil {
 		return err
 	}
+	r.sizeRead(layers[0])
+	r.problems = append(r.problems, r.ageReadLined(layers[0])...)
 	if cfg.layerFlowsOn() {
 		if r.layerFlows, err = r.layerFlowRead(layers[0]); err != nil {
 			return err
@@ -271,39 +285,6 @@ func openLayer(in *inputs, l layerConfig, mem *geojson.FeatureCollection) (*gis.
 		opt.CRS = c
 	}
 	return gis.OpenLayer(in.cfg.path(l.Path), opt)
-}
-
-// agedC returns each pipe's Hazen-Williams C and how it was found: a measured
-// C from the layer overrides the aging table (DESIGN.md, C aging).
-func agedC(cfg *Config, r *result) ([]float64, []string) {
-	table := cfg.agingTable()
-	fallback, _ := table.Lookup(cfg.Aging.UnknownMaterial)
-	c := make([]float64, len(r.pipes))
-	basis := make([]string, len(r.pipes))
-	for i, p := range r.pipes {
-		if p.MeasuredC > 0 {
-			c[i], basis[i] = p.MeasuredC, "measured"
-			continue
-		}
-		curve, ok := table.Lookup(p.Material)
-		if !ok {
-			curve = fallback
-			if p.Usable {
-				r.problems = append(r.problems, gis.Problem{
-					File: filepath.Base(cfg.Pipes.Path), Feature: p.Index, ID: p.ID, Field: cfg.Pipes.Fields.Material,
-					What:   fmt.Sprintf("material %q is not in the aging table", p.Material),
-					Action: fmt.Sprintf("C taken from the %s curve; add the material or an alias to [[aging.curve]]", curve.Material),
-				})
-			}
-		}
-		age, how := float64(cfg.AnalysisYear-p.InstallYear), "aged"
-		if p.InstallYear == 0 {
-			age, how = cfg.Aging.UnknownAgeYears, "assumed age"
-		}
-		c[i] = curve.C(math.Max(age, 0))
-		basis[i] = fmt.Sprintf("%s %s %.0f yr", how, curve.Material, math.Max(age, 0))
-	}
-	return c, basis
 }
 
 // scenario is one steady state the run solves. Peak hour is the one the

@@ -33,6 +33,8 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 	r.summariseSolve(p)
 	r.ctlSummarisePumps(p)
 	r.summariseFireFlow(p)
+	r.cureSummarise(p)
+	r.ageSummarise(p)
 	r.summariseTop(&b)
 	p("\nCriteria (peak hour): unit head loss %.1f %s, velocity %.1f %s, pressure %.1f %s; design C %.0f for sizing\n",
 		s.UnitHeadLoss(r.limits.MaxSlope), s.UnitHeadLossLabel(), s.Velocity(r.limits.MaxVelocity), s.VelocityLabel(),

@@ -52,13 +52,16 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("[pipes]  # LineString / MultiLineString layer of water mains: .geojson, .shp or .gpkg\n")
 	p("path = %s\n", str(c.Pipes.Path))
 	layerKeys(c.Pipes.Table, c.Pipes.CRS)
+	p("diameter_is = %s  # \"nominal\": the diameter field holds trade sizes, whose inside diameters come from [sizing.existing]; \"inside\": it holds inside diameters\n", str(orDefault(c.Pipes.DiameterIs, diameterIsNominal)))
 	p("[pipes.fields]  # property names in the layer; \"\" = not in the layer\n")
 	p("id = %s  # required, unique\n", str(f.ID))
 	p("diameter = %s  # required, > 0\n", str(f.Diameter))
 	p("diameter_unit = %s  # \"in\" or \"mm\"\n", str(orDefault(f.DiameterUnit, "in")))
 	p("material = %s  # required; matched to aging.curve material or aliases\n", str(f.Material))
+	p("class = %s  # optional: pressure class or dimension ratio (\"DR18\", \"PC350\", \"350\"); empty values take the material's [sizing.existing] class\n", str(f.Class))
 	p("install_year = %s  # required; unknown or implausible years use aging.unknown_age_years\n", str(f.InstallYear))
 	p("measured_c = %s  # optional: a field-tested Hazen-Williams C overrides aging\n", str(f.MeasuredC))
+	p("lined_year = %s  # optional: year of cement-mortar lining or rehabilitation; the age restarts then on aging.lined_curve\n", str(f.LinedYear))
 	p("status = %s  # optional\n", str(f.Status))
 	p("closed_values = %s  # status values meaning closed (no flow), any case\n", list(orDefaultList(f.ClosedValues, []string{"closed"})))
 	p("check_values = %s  # status values marking a check valve: flow only first vertex → last, any case\n", list(orDefaultList(f.CheckValues, []string{})))
@@ -131,6 +134,8 @@ func writeConfig(w io.Writer, c *Config) error {
 	q(c.minPressure(), "lowest pressure at a junction at peak hour")
 	q(c.minDiameter(), "smallest size a replacement main may take (your utility's minimum)")
 	p("design_c = %s  # Hazen-Williams C assumed for a new main when sizing\n\n", num(c.Criteria.DesignC))
+	p("%s", sizeTemplate(c))
+	p("%s", cureTemplate(c))
 
 	p("[solver]  # Global Gradient Algorithm\n")
 	p("tolerance = %s  # stop when the relative flow change is below this\n", num(orDefaultFloat(c.Solver.Tolerance, defaultSolverTolerance)))
@@ -156,20 +161,7 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("formats = %s  # pipe and node layers: \"geojson\" (WGS84), \"gpkg\" and \"shp\" (the pipe layer's coordinate system)\n\n",
 		list(orDefaultList(c.Output.Formats, defaultFormats)))
 
-	p("[aging]  # Hazen-Williams C by material and age, interpolated linearly, held beyond the ends\n")
-	p("unknown_age_years = %s  # age used when the install year is missing or implausible\n", num(c.Aging.UnknownAgeYears))
-	p("unknown_material = %s  # curve used for a material not in the table\n", str(c.Aging.UnknownMaterial))
-	for _, cu := range c.agingTable().Curves {
-		p("\n[[aging.curve]]\n")
-		p("material = %s\n", str(cu.Material))
-		p("aliases = %s\n", list(cu.Aliases))
-		p("source = %s\n", str(cu.Source))
-		pts := make([]string, len(cu.Points))
-		for i, pt := range cu.Points {
-			pts[i] = "[" + num(pt.Age) + ", " + num(pt.C) + "]"
-		}
-		p("c_by_age = [%s]  # [age in years, C]\n", strings.Join(pts, ", "))
-	}
+	b.WriteString(ageTemplate(c)) // [aging], its curves and growth models (aging.go)
 	_, err := io.WriteString(w, b.String())
 	return err
 }
