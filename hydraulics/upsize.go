@@ -283,6 +283,8 @@ type cureEval struct {
 	fails []cureItem
 	// screened: some hydrants kept an earlier network's result (see evaluate)
 	screened bool
+	// aborted: a trial stopped at its first new failure (see evaluateTrial)
+	aborted bool
 }
 
 // cureFire is one hydrant at its needed flow.
@@ -725,8 +727,8 @@ func (c *cure) trim(cur *cureEval) *cureEval {
 // tryKeep evaluates size and returns it when its failures are a subset of
 // cur's; a trial whose solve fails is not kept.
 func (c *cure) tryKeep(cur *cureEval, size []int) (*cureEval, bool) {
-	e, err := c.evaluate(size, cur, false)
-	if err != nil {
+	e, err := c.evaluateTrial(size, cur, false, true)
+	if err != nil || e.aborted {
 		return nil, false
 	}
 	for _, it := range e.fails {
@@ -784,6 +786,13 @@ func (c *cure) solverFor(net *Network) *Solver {
 // the others keep prev's result, and the evaluation is marked screened.
 // run verifies the final network with a full evaluation.
 func (c *cure) evaluate(size []int, prev *cureEval, full bool) (*cureEval, error) {
+	return c.evaluateTrial(size, prev, full, false)
+}
+
+// evaluateTrial is evaluate; with abort set it stops solving hydrants at
+// the first one that fails where prev's passed, and marks the evaluation
+// aborted (a trial that tryKeep then rejects: its failures are incomplete).
+func (c *cure) evaluateTrial(size []int, prev *cureEval, full, abort bool) (*cureEval, error) {
 	c.trials++
 	var screen []int
 	if prev != nil && !full {
@@ -809,8 +818,15 @@ func (c *cure) evaluate(size []int, prev *cureEval, full bool) (*cureEval, error
 		}
 		e.sols = append(e.sols, sol)
 	}
-	if err := c.fireChecks(e, prev, screen, full); err != nil {
+	if abort && prev != nil && c.scenarioFails(e, prev) {
+		e.aborted = true // a scenario fails that passed: no need to solve the hydrants
+		return e, nil
+	}
+	if err := c.fireChecks(e, prev, screen, full, abort); err != nil {
 		return nil, err
+	}
+	if e.aborted {
+		return e, nil
 	}
 
 	c.listFails(e)
@@ -819,7 +835,7 @@ func (c *cure) evaluate(size []int, prev *cureEval, full bool) (*cureEval, error
 
 // fireChecks solves, per hydrant, the background plus Needed + Tolerance
 // at the hydrant and records the lowest checked junction's margin.
-func (c *cure) fireChecks(e *cureEval, prev *cureEval, screen []int, full bool) error {
+func (c *cure) fireChecks(e *cureEval, prev *cureEval, screen []int, full, abort bool) error {
 	hs := c.in.Hydrants
 	e.fire = make([]cureFire, len(hs))
 	if len(hs) == 0 {
@@ -834,9 +850,15 @@ func (c *cure) fireChecks(e *cureEval, prev *cureEval, screen []int, full bool) 
 		}
 		todo = append(todo, k)
 	}
+	if abort && prev != nil {
+		// The hydrants nearest to failing first: a trial that breaks one is
+		// usually rejected after a few solves.
+		slices.SortStableFunc(todo, func(a, b int) int { return cmp.Compare(prev.fire[a].margin, prev.fire[b].margin) })
+	}
 	bg := c.demand[c.in.FireBackground]
 	workers := min(c.fire.Workers, len(todo))
 	errs := make([]error, len(hs))
+	var stop atomic.Bool
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	for range workers {
@@ -852,7 +874,7 @@ func (c *cure) fireChecks(e *cureEval, prev *cureEval, screen []int, full bool) 
 				return
 			}
 			d := make([]Flow, len(bg))
-			for {
+			for !stop.Load() {
 				n := int(next.Add(1) - 1)
 				if n >= len(todo) {
 					return
@@ -863,16 +885,33 @@ func (c *cure) fireChecks(e *cureEval, prev *cureEval, screen []int, full bool) 
 					warm = prev.fire[k].sol
 				}
 				e.fire[k], errs[k] = c.fireCheck(s, hs[k], d, bg, warm)
+				if abort && errs[k] == nil && !e.fire[k].skip && e.fire[k].margin < 0 && !(prev.fire[k].margin < 0) {
+					stop.Store(true)
+				}
 			}
 		}()
 	}
 	wg.Wait()
+	e.aborted = stop.Load()
 	for k, err := range errs {
 		if err != nil {
 			return fmt.Errorf("hydraulics: upsize: fire flow at node %d: %w", hs[k].Node, err)
 		}
 	}
 	return nil
+}
+
+// scenarioFails reports whether e fails a scenario criterion (head loss,
+// velocity or pressure) that prev met.
+func (c *cure) scenarioFails(e, prev *cureEval) bool {
+	c.listFails(e) // e.fire is empty yet: scenario items only
+	defer func() { e.fails = nil }()
+	for _, it := range e.fails {
+		if !slices.Contains(prev.fails, it) {
+			return true
+		}
+	}
+	return false
 }
 
 // touched reports whether hydrant result f (of prev) must be re-solved
