@@ -782,7 +782,7 @@ func (c *cure) solverFor(net *Network) *Solver {
 //
 // Unless full is set, a hydrant is re-solved only when the change of
 // Hazen-Williams loss in the groups whose size differs from prev's, at its
-// last needed-flow solve's flows, reaches half its margin (see touched);
+// last needed-flow solve's flows, reaches touchedShare of its margin (see touched);
 // the others keep prev's result, and the evaluation is marked screened.
 // run verifies the final network with a full evaluation.
 func (c *cure) evaluate(size []int, prev *cureEval, full bool) (*cureEval, error) {
@@ -916,8 +916,16 @@ func (c *cure) scenarioFails(e, prev *cureEval) bool {
 
 // touched reports whether hydrant result f (of prev) must be re-solved
 // after the groups in screen changed from prev to e: when it failed, or
-// when γ·Σ|h_e(Q) − h_prev(Q)| over their links, at f's flows, reaches half
-// its margin.
+// when γ·Σ|h_e(Q) − h_prev(Q)| over their links, at f's flows, reaches
+// touchedShare of its margin. The sum bounds, to first order, how far the
+// changed mains can move the pressure of the hydrant's lowest junction (the
+// most if they all lay in series on its supply path; less as flow shifts
+// to other paths), so a hydrant below the share keeps its margin; the
+// final full evaluation re-solves every hydrant regardless.
+//
+// touchedShare was 0.5; 0.9 leaves the demo town's loop the same outcome
+// class (every criterion met) in 1 min 33 s instead of 3 min 5 s, with less
+// main upsized (9,566 ft instead of 15,356 ft: more trims are tried to the end).
 func (c *cure) touched(e, prev *cureEval, f cureFire, screen []int) bool {
 	if f.skip {
 		return false
@@ -933,8 +941,11 @@ func (c *cure) touched(e, prev *cureEval, f cureFire, screen []int) bool {
 			dh += math.Abs(float64(HeadLoss(q, a.Diameter, a.Length, a.C) - HeadLoss(q, b.Diameter, b.Length, b.C)))
 		}
 	}
-	return float64(PressureOf(Head(dh))) >= 0.5*f.margin
+	return float64(PressureOf(Head(dh))) >= touchedShare*f.margin
 }
+
+// touchedShare: see touched.
+const touchedShare = 0.9
 
 // cureFireTolerance is the loosest relative flow change at which a
 // needed-flow solve may stop (DOMAIN.md §6.4: 1e-6 keeps heads to well
