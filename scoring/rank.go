@@ -19,7 +19,7 @@ type Pipe struct {
 	Scorable bool
 	Reason   string
 	C        float64           // Hazen-Williams C used
-	Diameter hydraulics.Length // inside diameter now
+	Diameter hydraulics.Length // the size now as the layer records it (nominal unless diameter_is = "inside"), compared with the required nominal size in the reasons
 	Check    hydraulics.PipeCheck
 	// LowPressure marks a pipe with an end node below the pressure
 	// criterion. It is mentioned in the reasons and not scored.
