@@ -96,15 +96,7 @@ elevation = "z_ft"
 enabled = false
 [aging]
 `+agingLines)
-	cfg, err := loadConfig(filepath.Join(dir, "headroom.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := analyse(&inputs{cfg: cfg, title: cfg.file})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return r
+	return analyseConfig(t, filepath.Join(dir, "headroom.toml"))
 }
 
 // ageSW is the Sharp & Walski C (DOMAIN.md §2.3) computed here in feet:

@@ -118,32 +118,12 @@ func areaFixture(t *testing.T) string {
 		f.Properties = geojson.Properties{"z_ft": 100}
 		spots.Append(f)
 	}
-	for name, fc := range map[string]*geojson.FeatureCollection{
+	writeCollections(t, dir, map[string]*geojson.FeatureCollection{
 		"mains.geojson": mains, "supply.geojson": supply, "areas.geojson": areas, "spots.geojson": spots,
-	} {
-		b, err := fc.MarshalJSON()
-		if err != nil {
-			t.Fatal(err)
-		}
-		writeFile(t, filepath.Join(dir, name), string(b))
-	}
+	})
 	path := filepath.Join(dir, "headroom.toml")
 	writeFile(t, path, areaConfig)
 	return path
-}
-
-// areaAnalyse loads a config and runs the pipeline in-process.
-func areaAnalyse(t *testing.T, configPath string) *result {
-	t.Helper()
-	cfg, err := loadConfig(configPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := analyse(&inputs{cfg: cfg, title: cfg.file})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return r
 }
 
 // areaNodeAt returns the network node at a fixture position.
@@ -159,7 +139,7 @@ func areaNodeAt(t *testing.T, r *result, at orb.Point) int {
 }
 
 func TestAreaDemandsByConnectedLength(t *testing.T) {
-	r := areaAnalyse(t, areaFixture(t))
+	r := analyseConfig(t, areaFixture(t))
 	// Connected length, computed by hand: half of each main at each end.
 	// B: ½(1000 + 500 + 800) = 1150 ft, C: ½·500 = 250 ft, D: ½·800 = 400 ft.
 	// Z-1 (100 gpm) covers B and C: B 100·1150/1400, C 100·250/1400.

@@ -119,15 +119,7 @@ elevation = "z_ft"
 [fire_flow]
 enabled = %v
 `, town.sourceKeys, town.fireEnabled))
-	cfg, err := loadConfig(filepath.Join(dir, "headroom.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := analyse(&inputs{cfg: cfg, title: cfg.file})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return r
+	return analyseConfig(t, filepath.Join(dir, "headroom.toml"))
 }
 
 // ctlGPM is one US gallon per minute in m³/s: 231 in³ = 3.785411784 L

@@ -134,15 +134,9 @@ func layerFlowFixture(t *testing.T, dir string, mains []layerFlowMain, demands [
 		f.Properties = geojson.Properties{"meter": "M-" + strconv.Itoa(k+1), "add_gpm": d.gpm}
 		meters.Append(f)
 	}
-	for name, c := range map[string]*geojson.FeatureCollection{
+	writeCollections(t, dir, map[string]*geojson.FeatureCollection{
 		"mains.geojson": fc, "supply.geojson": supply, "meters.geojson": meters, "spots.geojson": spots,
-	} {
-		b, err := c.MarshalJSON()
-		if err != nil {
-			t.Fatal(err)
-		}
-		writeFile(t, filepath.Join(dir, name), string(b))
-	}
+	})
 	path := filepath.Join(dir, "headroom.toml")
 	writeFile(t, path, strings.Replace(layerFlowConfig, "FLOWS", flows, 1))
 	return path
@@ -154,14 +148,14 @@ func layerFlowSolvedThenGiven(t *testing.T) (solved, given *result, dir string) 
 	t.Helper()
 	dir = t.TempDir()
 	mains := layerFlowLoop()
-	solved = areaAnalyse(t, layerFlowFixture(t, dir, mains, layerFlowLoopDemands, flowsSolve))
+	solved = analyseConfig(t, layerFlowFixture(t, dir, mains, layerFlowLoopDemands, flowsSolve))
 	for i := range mains {
 		if len(solved.parts[i]) != 1 {
 			t.Fatalf("pipe %s has %d parts; the fixture has no tees", mains[i].id, len(solved.parts[i]))
 		}
 		mains[i].flow = solved.sol.Flow[solved.parts[i][0]].GPM() // full float64 precision in the GeoJSON
 	}
-	given = areaAnalyse(t, layerFlowFixture(t, dir, mains, layerFlowLoopDemands, flowsFromLayer))
+	given = analyseConfig(t, layerFlowFixture(t, dir, mains, layerFlowLoopDemands, flowsFromLayer))
 	return solved, given, dir
 }
 
@@ -268,7 +262,7 @@ func TestLayerFlowsTeeImbalance(t *testing.T) {
 		{"M2", orb.LineString{mid, {-96.4985, 40.2010}}, 6, 500, "PVC", 2010, "40"},
 	}
 	demands := []layerFlowDemand{{orb.Point{-96.4970, 40.2000}, 24}, {orb.Point{-96.4985, 40.2010}, 16}}
-	r := areaAnalyse(t, layerFlowFixture(t, dir, mains, demands, flowsFromLayer))
+	r := analyseConfig(t, layerFlowFixture(t, dir, mains, demands, flowsFromLayer))
 	if len(r.parts[0]) != 2 {
 		t.Fatalf("M1 has %d parts, want 2 (split at the tee)", len(r.parts[0]))
 	}
@@ -395,7 +389,7 @@ func TestLayerFlowsClosedPipe(t *testing.T) {
 	}
 	writeFile(t, filepath.Join(dir, "mains.geojson"), text)
 	writeFile(t, filepath.Join(dir, "meters.geojson"), `{"type":"FeatureCollection","features":[{"type":"Feature","properties":{"meter":"M-1","add_gpm":48},"geometry":{"type":"Point","coordinates":[-96.498,40.2]}}]}`)
-	r := areaAnalyse(t, path)
+	r := analyseConfig(t, path)
 	if !slices.ContainsFunc(r.problems, func(p gis.Problem) bool {
 		return p.Feature == 5 && p.ID == "L5" && p.Field == "q_gpm" && strings.Contains(p.What, "closed pipe has a given flow of 35 gpm")
 	}) {
@@ -444,14 +438,14 @@ pump_max_head = "hm"`, 1)
 		writeFile(t, path, text)
 		return path
 	}
-	solved := areaAnalyse(t, fixture(flowsSolve))
+	solved := analyseConfig(t, fixture(flowsSolve))
 	if len(solved.ctlPumps) != 1 {
 		t.Fatalf("%d pump stations, want 1", len(solved.ctlPumps))
 	}
 	for i := range mains {
 		mains[i].flow = solved.sol.Flow[solved.parts[i][0]].GPM()
 	}
-	given := areaAnalyse(t, fixture(flowsFromLayer))
+	given := analyseConfig(t, fixture(flowsFromLayer))
 	j := solved.ctlPumps[0].Link
 	// Continuity at the discharge: the pump delivers the whole 2.5 × 330 gpm.
 	if a, b := solved.sol.Flow[j].GPM(), given.sol.Flow[j].GPM(); math.Abs(a-b) > 1e-6 || math.Abs(b-825) > 1e-6 {

@@ -1,0 +1,35 @@
+package main
+
+import (
+	"path/filepath"
+	"testing"
+
+	"github.com/paulmach/orb/geojson"
+)
+
+// analyseConfig loads the config at configPath and runs the pipeline in
+// process, failing the test on any error.
+func analyseConfig(t *testing.T, configPath string) *result {
+	t.Helper()
+	cfg, err := loadConfig(configPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := analyse(&inputs{cfg: cfg, title: cfg.file})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
+// writeCollections writes each collection as GeoJSON to dir under its name.
+func writeCollections(t *testing.T, dir string, layers map[string]*geojson.FeatureCollection) {
+	t.Helper()
+	for name, fc := range layers { // each file on its own: the order does not matter
+		b, err := fc.MarshalJSON()
+		if err != nil {
+			t.Fatal(err)
+		}
+		writeFile(t, filepath.Join(dir, name), string(b))
+	}
+}
