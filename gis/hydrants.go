@@ -131,7 +131,7 @@ func hydNeeded(props geojson.Properties, prop string, u hydraulics.Flow, unitNam
 	if !ok {
 		return 0
 	}
-	const fix = "needed fire flow ignored (taken from the zone table or the default); correct the value or leave it empty"
+	const fix = "needed fire flow ignored (taken from the land-use table or fire_flow.needed_gpm); correct the value or leave it empty"
 	x, err := number(v)
 	q := hydraulics.Flow(x) * u
 	switch {

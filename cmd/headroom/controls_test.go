@@ -273,6 +273,15 @@ func TestCtlCheckValve(t *testing.T) {
 				demands: map[int]float64{1: 100},
 			})
 			q := ctlFlowGPM(t, r, "CV-1")
+			for i, p := range r.pipes {
+				if p.ID != "CV-1" {
+					continue
+				}
+				want := map[string]string{"CV": "check valve", "open": "open"}[c.status]
+				if got := r.pipeValues(i, p, r.cfg.system())["status"]; got != want {
+					t.Errorf("status column %v, want %q", got, want)
+				}
+			}
 			switch {
 			case c.wantZero && q != 0:
 				t.Errorf("check-valve main carries %.6f gpm against its direction, want 0", q)

@@ -271,8 +271,11 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]a
 	d, l, q, vs, h := s.DiameterSuffix(), s.LengthSuffix(), s.FlowSuffix(), s.VelocitySuffix(), s.UnitHeadLossSuffix()
 	sc := r.scores[i]
 	status := "open"
-	if p.Closed {
+	switch {
+	case p.Closed:
 		status = "closed"
+	case p.CheckValve:
+		status = "check valve" // open, flow first vertex → last only
 	}
 	v := map[string]any{
 		"pipe_id": p.ID, "feature": p.Index, "status": status, "material": p.Material,
