@@ -804,19 +804,8 @@ func (c *cure) evaluateTrial(size []int, prev *cureEval, full, abort bool) (*cur
 	}
 	e := &cureEval{size: slices.Clone(size), net: c.network(size)}
 	e.s = c.solverFor(e.net)
-	for k := range c.in.Scenarios {
-		if err := e.s.SetGrades(c.grades[k]); err != nil {
-			return nil, fmt.Errorf("hydraulics: upsize: %w", err)
-		}
-		var warm *Solution
-		if prev != nil {
-			warm = prev.sols[k]
-		}
-		sol, err := e.s.Solve(c.demand[k], warm)
-		if err != nil {
-			return nil, fmt.Errorf("hydraulics: upsize: scenario %q: %w", c.in.Scenarios[k].Name, err)
-		}
-		e.sols = append(e.sols, sol)
+	if err := c.solveScenarios(e, prev); err != nil {
+		return nil, err
 	}
 	if abort && prev != nil && c.scenarioFails(e, prev) {
 		e.aborted = true // a scenario fails that passed: no need to solve the hydrants
@@ -831,6 +820,41 @@ func (c *cure) evaluateTrial(size []int, prev *cureEval, full, abort bool) (*cur
 
 	c.listFails(e)
 	return e, nil
+}
+
+// solveScenarios solves every scenario of e, each on its own clone of e.s
+// and all at once (they are independent; each result depends only on its
+// own demand, grades and warm start, so the order does not matter).
+func (c *cure) solveScenarios(e, prev *cureEval) error {
+	n := len(c.in.Scenarios)
+	solvers := make([]*Solver, n)
+	for k := range solvers {
+		solvers[k] = e.s.Clone()
+	}
+	e.sols = make([]*Solution, n)
+	errs := make([]error, n)
+	var wg sync.WaitGroup
+	for k := range n {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			if errs[k] = solvers[k].SetGrades(c.grades[k]); errs[k] != nil {
+				return
+			}
+			var warm *Solution
+			if prev != nil {
+				warm = prev.sols[k]
+			}
+			e.sols[k], errs[k] = solvers[k].Solve(c.demand[k], warm)
+		}()
+	}
+	wg.Wait()
+	for k, err := range errs {
+		if err != nil {
+			return fmt.Errorf("hydraulics: upsize: scenario %q: %w", c.in.Scenarios[k].Name, err)
+		}
+	}
+	return nil
 }
 
 // fireChecks solves, per hydrant, the background plus Needed + Tolerance
