@@ -317,6 +317,16 @@ func (f *fireSearch) run(h int) FireFlowResult {
 	}
 }
 
+// count adds one solve, and the iterations and factorisations of sol (nil
+// when the solve failed early), to the hydrant's statistics.
+func (f *fireSearch) count(sol *Solution) {
+	f.solves++
+	if sol != nil {
+		f.iterations += sol.Iterations
+		f.factorisations += sol.Factorisations
+	}
+}
+
 // pinned estimates the available flow with pinned solves (see
 // Solver.SolvePinned): the extra demand at the hydrant that brings the
 // pressure at a checked junction w to the residual exactly, first with w the
@@ -338,12 +348,8 @@ func (f *fireSearch) pinned(h int, zero firePoint) (firePoint, bool) {
 	defer func() { g.opt.Tolerance = tight }()
 	for range maxPinRounds {
 		head := Head(g.net.Nodes[w].Elevation) + HeadOf(f.opt.Residual)
-		f.solves++
 		sol, x, err := f.s.solvePinned(f.demand, warm, h, w, head, f.opt.Ceiling, w != h)
-		if sol != nil {
-			f.iterations += sol.Iterations
-			f.factorisations += sol.Factorisations
-		}
+		f.count(sol)
 		if err != nil || !(float64(x) > zero.q) {
 			return firePoint{}, false
 		}
@@ -386,12 +392,8 @@ func (f *fireSearch) trial(q float64, prev, lo, hi firePoint, haveHi bool) (fire
 		}
 		warm = f.warmFlows(q, a, b)
 	}
-	f.solves++
 	sol, err := f.s.SolveNear(f.demand, warm)
-	if sol != nil {
-		f.iterations += sol.Iterations
-		f.factorisations += sol.Factorisations
-	}
+	f.count(sol)
 	if err != nil {
 		return firePoint{}, fmt.Errorf("solve at %.1f gpm: %w", Flow(q).GPM(), err)
 	}

@@ -287,10 +287,7 @@ func newGGA(net *Network, o Options) *gga {
 			s.q0[j] = pumpLinearFraction * p.Pump.runout()
 			s.qStart[j] = p.Pump.startFlow()
 		} else {
-			area := math.Pi / 4 * float64(p.Diameter) * float64(p.Diameter)
-			s.r[j] = Resistance(p.Length, p.Diameter, p.C)
-			s.q0[j] = max(area*float64(linearBelowVelocity), math.Pow(minLinearSlope/s.r[j], 1/(HWExponentFlow-1)))
-			s.qStart[j] = area * float64(initialVelocity)
+			s.r[j], s.q0[j], s.qStart[j] = pipeCoefficients(p)
 		}
 		s.q[j] = s.qStart[j]
 		a, b := s.unknown[p.From], s.unknown[p.To]
@@ -311,6 +308,16 @@ func newGGA(net *Network, o Options) *gga {
 	s.rhs = make([]float64, s.nUnknown)
 	s.demand0 = append([]float64(nil), s.demand...)
 	return s
+}
+
+// pipeCoefficients returns a pipe's Hazen-Williams resistance r (SI, see
+// Resistance), its zero-flow switch q0 (see linearBelowVelocity) and its
+// cold-start flow (initialVelocity over its area), in m³/s.
+func pipeCoefficients(p Pipe) (r, q0, qStart float64) {
+	area := math.Pi / 4 * float64(p.Diameter) * float64(p.Diameter)
+	r = Resistance(p.Length, p.Diameter, p.C)
+	q0 = max(area*float64(linearBelowVelocity), math.Pow(minLinearSlope/r, 1/(HWExponentFlow-1)))
+	return r, q0, area * float64(initialVelocity)
 }
 
 // reachFromFixed marks the nodes joined to a fixed node through open pipes

@@ -768,10 +768,7 @@ func (c *cure) solverFor(net *Network) *Solver {
 		if q := c.net.Pipes[j]; q.Diameter == p.Diameter && q.C == p.C {
 			continue
 		}
-		area := math.Pi / 4 * float64(p.Diameter) * float64(p.Diameter)
-		g.r[j] = Resistance(p.Length, p.Diameter, p.C)
-		g.q0[j] = max(area*float64(linearBelowVelocity), math.Pow(minLinearSlope/g.r[j], 1/(HWExponentFlow-1)))
-		g.qStart[j] = area * float64(initialVelocity)
+		g.r[j], g.q0[j], g.qStart[j] = pipeCoefficients(p)
 	}
 	return s
 }
