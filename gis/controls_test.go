@@ -57,7 +57,7 @@ func TestCtlCheckValveOnEveryPart(t *testing.T) {
 		t.Fatal(err)
 	}
 	topo, _ := Snap(pipes, 0.5*hydraulics.Foot)
-	net := NewNetwork(pipes, topo, nil, nil, nil, []float64{130, 130})
+	net := NewNetwork(pipes, topo, nil, nil, nil, nil, []float64{130, 130})
 	parts := topo.Parts[0]
 	if len(parts) != 2 {
 		t.Fatalf("main M-1 has %d parts, want 2 (split at the tee)", len(parts))
@@ -257,7 +257,7 @@ func TestCtlAddPumps(t *testing.T) {
 	for i := range c {
 		c[i] = 130
 	}
-	net := NewNetwork(pipes, topo, supplies, nil, nil, c)
+	net := NewNetwork(pipes, topo, supplies, nil, nil, nil, c)
 	nn, np := len(net.Nodes), len(net.Pipes)
 	at := supplies[0].Node
 	st := AddPumps(net, topo, sources, supplies)

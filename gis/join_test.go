@@ -130,7 +130,7 @@ func TestNewNetwork(t *testing.T) {
 	sup := []Supply{{Node: 0, Source: 0, Grade: 50}}
 	demand := []hydraulics.Flow{0, 1e-3, 2e-3, 3e-3}
 	elev := []hydraulics.Length{10, 11, 12, 13}
-	net := NewNetwork(pipes, topo, sup, demand, elev, []float64{100, 110, 120, 130})
+	net := NewNetwork(pipes, topo, sup, demand, elev, nil, []float64{100, 110, 120, 130})
 	if len(net.Nodes) != 4 || len(net.Pipes) != 3 {
 		t.Fatalf("%d nodes, %d pipes", len(net.Nodes), len(net.Pipes))
 	}

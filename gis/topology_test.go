@@ -93,7 +93,7 @@ func TestTopologyTeeSplitSolved(t *testing.T) {
 	const grade = 60.0           // m at the supply J1
 	const qEnd, qBr = 5e-3, 3e-3 // m³/s at J2 and J4
 	sup := []Supply{{Node: 0, Grade: grade}}
-	net := NewNetwork(pipes, topo, sup, []hydraulics.Flow{0, qEnd, 0, qBr}, nil, []float64{120, 120})
+	net := NewNetwork(pipes, topo, sup, []hydraulics.Flow{0, qEnd, 0, qBr}, nil, nil, []float64{120, 120})
 	if ids := []string{net.Pipes[0].ID, net.Pipes[1].ID, net.Pipes[2].ID}; !reflect.DeepEqual(ids, []string{"MAIN/1", "MAIN/2", "BRANCH"}) {
 		t.Errorf("network pipe ids %v", ids)
 	}
@@ -139,7 +139,7 @@ func TestTopologyTwoTees(t *testing.T) {
 			t.Errorf("part %d = %+v, want nodes %v and %.0f m", k+1, l, wantNodes[k], wantLen[k])
 		}
 	}
-	net := NewNetwork(pipes, topo, nil, nil, nil, []float64{100, 100, 100})
+	net := NewNetwork(pipes, topo, nil, nil, nil, nil, []float64{100, 100, 100})
 	if net.Pipes[2].ID != "MAIN/3" || net.Pipes[3].ID != "EAST" {
 		t.Errorf("ids %q, %q; want MAIN/3, EAST", net.Pipes[2].ID, net.Pipes[3].ID)
 	}

@@ -179,10 +179,9 @@ func analyse(in *inputs) (*result, error) {
 	}
 
 	r.ageDerate()
-	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.cFactor)
+	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.inside, r.cFactor)
 	r.ctlPumps = gis.AddPumps(r.net, topo, r.sources, r.supplies)
 	r.parts = topo.Parts
-	r.sizeApply()
 
 	if err := readHydrants(in, r); err != nil {
 		return nil, err

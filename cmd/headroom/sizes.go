@@ -312,19 +312,6 @@ func (r *result) sizeNoTable(file, material string, n int) {
 			hydraulics.SizeClassList("")})
 }
 
-// sizeApply gives every link of the network the inside diameter of its
-// input pipe.
-func (r *result) sizeApply() {
-	for i, links := range r.parts {
-		if i >= len(r.inside) {
-			break
-		}
-		for _, j := range links {
-			r.net.Pipes[j].Diameter = r.inside[i]
-		}
-	}
-}
-
 // sizeTemplate is the [sizing] section of the config template.
 func sizeTemplate(c *Config) string {
 	var b strings.Builder
