@@ -2,6 +2,7 @@ package hydraulics
 
 import (
 	"cmp"
+	"container/heap"
 	"errors"
 	"fmt"
 	"math"
@@ -46,8 +47,13 @@ type UpsizeInput struct {
 	FireGrades []Head
 	// Fire sets the residual, zones, tolerance and workers of the fire-flow
 	// searches (see FireFlowOptions; the zero value is valid).
-	Fire   FireFlowOptions
-	Limits Limits
+	Fire FireFlowOptions
+	// FireBefore, when not nil, is per hydrant the FireFlow result of the
+	// input network at the fire grades with Fire's options, from a sweep
+	// the caller has already run; it is reported as the result's FireBefore
+	// instead of sweeping again.
+	FireBefore []FireFlowResult
+	Limits     Limits
 	// Group gives, per pipe, a number shared by the links that must take one
 	// size (the parts of one main split by tees); −1 or a nil Group puts a
 	// link in a group of its own. Pumps and closed links are never resized.
@@ -313,6 +319,9 @@ func newCure(in UpsizeInput) (*cure, error) {
 	if len(in.Hydrants) > 0 && (in.FireBackground < 0 || in.FireBackground >= len(in.Scenarios)) {
 		return nil, fmt.Errorf("hydraulics: upsize: fire background %d is not a scenario index", in.FireBackground)
 	}
+	if in.FireBefore != nil && len(in.FireBefore) != len(in.Hydrants) {
+		return nil, fmt.Errorf("hydraulics: upsize: %d fire-flow results before for %d hydrants", len(in.FireBefore), len(in.Hydrants))
+	}
 	if in.Group != nil && len(in.Group) != len(net.Pipes) {
 		return nil, fmt.Errorf("hydraulics: upsize: %d groups for %d pipes", len(in.Group), len(net.Pipes))
 	}
@@ -473,7 +482,10 @@ func (c *cure) run() (*UpsizeResult, error) {
 			res.Stop, stopped = UpsizeIterationCap, true
 			break
 		}
-		next, cut := c.propose(cur, curable)
+		next, cut, err := c.propose(cur, curable)
+		if err != nil {
+			return nil, err
+		}
 		if slices.Equal(next, cur.size) {
 			res.Stop, stopped = UpsizeNoHelp, true
 			if cut {
@@ -542,7 +554,7 @@ func (c *cure) isDriven(e *cureEval, it cureItem) bool {
 // the size asked by step 1 of Upsize, the largest of the asks per group
 // and never below the present choice. cut reports that an ask was left out
 // because it would take the upsized length past MaxLength.
-func (c *cure) propose(e *cureEval, items []cureItem) (next []int, cut bool) {
+func (c *cure) propose(e *cureEval, items []cureItem) (next []int, cut bool, err error) {
 	want := slices.Clone(e.size)
 	for _, it := range items {
 		switch it.crit {
@@ -551,7 +563,7 @@ func (c *cure) propose(e *cureEval, items []cureItem) (next []int, cut bool) {
 		case CriterionPressure:
 			n := c.net.Nodes[it.index]
 			need := HeadOf(c.in.Limits.MinPressure) - (e.sols[it.scenario].Head[it.index] - Head(n.Elevation))
-			c.askPath(e, e.sols[it.scenario], it.index, need, want)
+			err = c.askHead(e, e.sols[it.scenario], it.index, need, want)
 		case CriterionFireFlow:
 			f := e.fire[it.index]
 			if f.worst < 0 {
@@ -559,7 +571,10 @@ func (c *cure) propose(e *cureEval, items []cureItem) (next []int, cut bool) {
 			}
 			w := c.net.Nodes[f.worst]
 			need := HeadOf(c.fire.Residual) - (f.sol.Head[f.worst] - Head(w.Elevation))
-			c.askPath(e, f.sol, f.worst, need, want)
+			err = c.askHead(e, f.sol, f.worst, need, want)
+		}
+		if err != nil {
+			return nil, false, err
 		}
 	}
 	next = slices.Clone(e.size)
@@ -577,7 +592,7 @@ func (c *cure) propose(e *cureEval, items []cureItem) (next []int, cut bool) {
 		}
 		next[g] = k
 	}
-	return next, cut
+	return next, cut, nil
 }
 
 // askPipe asks, for a main over the slope or velocity limit, the smallest
@@ -603,12 +618,19 @@ func (c *cure) askPipe(e *cureEval, it cureItem, want []int) {
 	want[g] = max(want[g], k)
 }
 
-// askPath charges a head deficit need at junction v to the mains of the
-// path its water arrives by in sol: each step raises the main on the path
-// with the steepest Hazen-Williams slope at its present flow by one size,
-// until the losses along the path have fallen by need.
-func (c *cure) askPath(e *cureEval, sol *Solution, v int, need Head, want []int) {
-	path := c.inflowPath(sol, v)
+// askHead charges a head deficit need at junction v of sol to the mains
+// whose upsizing raises v's head the most per length of main: with the
+// first-order weights of HeadSensitivity at sol's flows, the gain of a
+// step from size k to k' of a group is Σ_j w_j·(h_j(Q_j, k') − h_j(Q_j, k))
+// over its links. The sizes already asked this round count first; then
+// the group with the largest gain per metre steps up one size at a time
+// until the gains reach need plus a margin (askMargin, askMarginCap), or
+// no step gains.
+func (c *cure) askHead(e *cureEval, sol *Solution, v int, need Head, want []int) error {
+	w, err := e.s.Clone().HeadSensitivity(sol, v)
+	if err != nil {
+		return fmt.Errorf("hydraulics: upsize: %w", err)
+	}
 	loss := func(j int, k int) float64 { // head loss of link j at size k (−1: as in e)
 		p := e.net.Pipes[j]
 		if k >= 0 {
@@ -616,64 +638,86 @@ func (c *cure) askPath(e *cureEval, sol *Solution, v int, need Head, want []int)
 		}
 		return float64(HeadLoss(sol.Flow[j], p.Diameter, p.Length, p.C))
 	}
+	gain := func(g, from, to int) float64 {
+		var d float64
+		for _, j := range c.group[g] {
+			if w[j] != 0 {
+				d += w[j] * (loss(j, to) - loss(j, from))
+			}
+		}
+		return d
+	}
 	ask := make([]int, len(want)) // per group, the size this deficit asks
+	var gained float64
 	for g := range ask {
 		ask[g] = max(want[g], e.size[g])
+		if ask[g] != e.size[g] {
+			gained += gain(g, e.size[g], ask[g])
+		}
 	}
-	var gained float64
-	for gained < float64(need) {
-		best, bestSlope := -1, 0.0
-		for _, j := range path {
-			g := c.groupOf[j]
-			if g < 0 || c.first[g] >= len(c.sizes) || ask[g] == len(c.sizes)-1 {
-				continue
-			}
-			l := math.Abs(loss(j, ask[g])) / float64(e.net.Pipes[j].Length)
-			if best < 0 || l > bestSlope {
-				best, bestSlope = j, l
-			}
+	target := float64(need) + min(float64(need)*(askMargin-1), float64(askMarginCap))
+	steps := &stepHeap{}
+	push := func(g int) {
+		if c.first[g] >= len(c.sizes) || ask[g] == len(c.sizes)-1 {
+			return
 		}
-		if best < 0 {
-			break
+		next := max(ask[g]+1, c.first[g])
+		if d := gain(g, ask[g], next); d > 0 {
+			heap.Push(steps, cureStep{group: g, size: next, gain: d, perLength: d / float64(c.length[g])})
 		}
-		g := c.groupOf[best]
-		k := ask[g]
-		nk := max(k+1, c.first[g])
-		for _, j := range c.group[g] {
-			if slices.Contains(path, j) {
-				gained += math.Abs(loss(j, k)) - math.Abs(loss(j, nk))
-			}
+	}
+	seen := make([]bool, len(c.group))
+	for j, wj := range w {
+		if g := c.groupOf[j]; wj != 0 && g >= 0 && !seen[g] {
+			seen[g] = true
+			push(g)
 		}
-		ask[g] = nk
+	}
+	for gained < target && steps.Len() > 0 {
+		st := heap.Pop(steps).(cureStep)
+		ask[st.group] = st.size
+		gained += st.gain
+		push(st.group)
 	}
 	copy(want, ask)
+	return nil
 }
 
-// inflowPath returns the links from junction v upstream to a fixed node,
-// each time along the link that brings the most flow in.
-func (c *cure) inflowPath(sol *Solution, v int) []int {
-	var path []int
-	seen := map[int]bool{v: true}
-	for !c.net.Nodes[v].Fixed {
-		best, bestQ, from := -1, 0.0, -1
-		for _, j := range c.adj[v] {
-			p := c.net.Pipes[j]
-			q, up := float64(sol.Flow[j]), p.From
-			if p.From == v {
-				q, up = -q, p.To
-			}
-			if q > bestQ && !seen[up] {
-				best, bestQ, from = j, q, up
-			}
-		}
-		if best < 0 {
-			break
-		}
-		path = append(path, best)
-		seen[from] = true
-		v = from
+// askMargin scales a head deficit before it is charged to mains: the
+// first-order gains of askHead overestimate large changes (see
+// HeadSensitivity), so a little more is asked than the deficit (common
+// practice, no source; the trim takes back what is not needed).
+const askMargin = 1.25
+
+// askMarginCap caps the extra head asked by askMargin, so that a deficit
+// of hundreds of feet (a 4-in main asked for 1,500 gpm) is not padded by
+// upsizing mains that add little (common practice, no source).
+const askMarginCap = 1 * Metre
+
+// cureStep is one candidate step of askHead: group up to size.
+type cureStep struct {
+	group, size     int
+	gain, perLength float64
+}
+
+// stepHeap orders candidate steps by gain per metre, largest first, then
+// by group (deterministic); it is a container/heap.Interface.
+type stepHeap []cureStep
+
+func (h stepHeap) Len() int { return len(h) }
+func (h stepHeap) Less(a, b int) bool {
+	if h[a].perLength != h[b].perLength {
+		return h[a].perLength > h[b].perLength
 	}
-	return path
+	return h[a].group < h[b].group
+}
+func (h stepHeap) Swap(a, b int) { h[a], h[b] = h[b], h[a] }
+func (h *stepHeap) Push(x any)   { *h = append(*h, x.(cureStep)) }
+func (h *stepHeap) Pop() any {
+	old := *h
+	x := old[len(old)-1]
+	*h = old[:len(old)-1]
+	return x
 }
 
 // upsizedLength is the total length of the groups with a size.
@@ -1152,8 +1196,11 @@ func (c *cure) report(res *UpsizeResult, before, after *cureEval, stopped bool) 
 		}
 	}
 	var err error
-	if res.FireBefore, err = c.fireFlows(before); err != nil {
-		return nil, err
+	res.FireBefore = c.in.FireBefore
+	if res.FireBefore == nil {
+		if res.FireBefore, err = c.fireFlows(before); err != nil {
+			return nil, err
+		}
 	}
 	if res.FireAfter, err = c.fireFlows(after); err != nil {
 		return nil, err
@@ -1195,6 +1242,7 @@ func (c *cure) fireFlows(e *cureEval) ([]FireFlowResult, error) {
 		return nil, nil
 	}
 	s := e.s.Clone()
+	s.g.opt.Tolerance = max(s.g.opt.Tolerance, cureFireTolerance)
 	if err := s.SetGrades(c.fireGr); err != nil {
 		return nil, fmt.Errorf("hydraulics: upsize: %w", err)
 	}

@@ -242,7 +242,11 @@ func cureTwoSourceNet(g2 float64) UpsizeInput {
 // and the length cap is kept.
 func TestCureCaps(t *testing.T) {
 	chain := UpsizeInput{Network: cureChainNet(6), Scenarios: cureScenarios(), Limits: cureLimits()}
-	two := cureTwoSourceNet(185)
+	// With R2 at 150 ft and 1,500 gpm asked, the hydrant draws mostly from
+	// R1, and each round's first-order charge (HeadSensitivity) falls short
+	// as flow shifts between the sources: several rounds are needed.
+	two := cureTwoSourceNet(150)
+	two.Hydrants[0].Needed = 1500 * USGallonPerMinute
 	if free := cureMustUpsize(t, chain); free.UpsizedLength < 2000*Foot {
 		t.Fatalf("uncapped chain: %.0f ft upsized; the case needs at least two mains", free.UpsizedLength.Feet())
 	}

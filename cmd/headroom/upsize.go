@@ -109,6 +109,7 @@ func (r *result) cureRun() error {
 		for k, h := range r.hydrants {
 			if h.res != nil {
 				in.Hydrants = append(in.Hydrants, hydraulics.UpsizeHydrant{Node: h.Node, Needed: h.needed})
+				in.FireBefore = append(in.FireBefore, *h.res) // the run's own sweep: no second one
 				r.cureHydrant = append(r.cureHydrant, k)
 			}
 		}
