@@ -16,6 +16,10 @@ import (
 // little to the score to be worth a word.
 const agedCSubScore = 50
 
+// MeetsCriteria is the whole of the reasons of a pipe that fails no
+// criterion.
+const MeetsCriteria = "meets the criteria"
+
 // reason is one clause of a pipe's reasons and the score points behind it.
 type reason struct {
 	points float64 // weight × sub-score; larger comes first
@@ -75,7 +79,7 @@ func reasons(p Pipe, r Result, cfg Config, lim hydraulics.Limits) string {
 		parts = append(parts, "an end is below "+strconv.FormatFloat(u.Pressure(lim.MinPressure), 'f', 0, 64)+" "+u.PressureLabel())
 	}
 	if !fails && !p.LowPressure {
-		parts = append(parts, "meets the criteria")
+		parts = append(parts, MeetsCriteria)
 	}
 	return strings.Join(parts, "; ")
 }
@@ -89,11 +93,11 @@ func cureText(u hydraulics.System, p Pipe) string {
 	req := p.Check.Required
 	switch {
 	case req.Nominal > p.Diameter+1e-6:
-		return "upsize to " + diameterText(u, req.Nominal) + " (now " + diameterText(u, p.Diameter) + ")"
+		return "upsize to " + DiameterText(u, req.Nominal) + " (now " + DiameterText(u, p.Diameter) + ")"
 	case req.Nominal > 0:
-		return "a new " + diameterText(u, req.Nominal) + " main cures it"
+		return "a new " + DiameterText(u, req.Nominal) + " main cures it"
 	case p.Check.RequiredInside > 0:
-		return "needs " + diameterText(u, p.Check.RequiredInside) + " inside, larger than any listed size"
+		return "needs " + DiameterText(u, p.Check.RequiredInside) + " inside, larger than any listed size"
 	}
 	return ""
 }
@@ -113,9 +117,9 @@ func flowText(u hydraulics.System, q hydraulics.Flow) string {
 	return strconv.FormatFloat(u.Flow(q), 'f', digits(u, 0, 1), 64) + " " + u.FlowLabel()
 }
 
-// diameterText writes inches with one decimal, dropping a trailing ".0"
+// DiameterText writes inches with one decimal, dropping a trailing ".0"
 // (8 in, 5.9 in), or whole millimetres.
-func diameterText(u hydraulics.System, d hydraulics.Length) string {
+func DiameterText(u hydraulics.System, d hydraulics.Length) string {
 	s := strconv.FormatFloat(u.Diameter(d), 'f', digits(u, 1, 0), 64)
 	return strings.TrimSuffix(s, ".0") + " " + u.DiameterLabel()
 }

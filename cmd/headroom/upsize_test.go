@@ -12,6 +12,7 @@ import (
 
 	"headroom/gis"
 	"headroom/hydraulics"
+	"headroom/scoring"
 )
 
 // cureTown copies the clean bad-input town into a temporary folder with
@@ -131,6 +132,14 @@ func cureCheckRun(t *testing.T, r *result) {
 			nominal := hydraulics.Length(d) * hydraulics.Inch
 			if !slices.ContainsFunc(r.limits.Sizes, func(z hydraulics.Size) bool { return math.Abs(float64(z.Nominal-nominal)) < 1e-9 }) {
 				t.Errorf("pipe %s: %.2f in is not a standard size", r.pipes[i].ID, d)
+			}
+		}
+	}
+	for _, sc := range r.scores {
+		if d := r.cureRecommended(sc.Index); d > 0 {
+			want := "recommended after re-solving every scenario and fire flow: " + scoring.DiameterText(s, d)
+			if !strings.Contains(sc.Reasons, want) {
+				t.Errorf("pipe %s: reasons %q do not say %q", r.pipes[sc.Index].ID, sc.Reasons, want)
 			}
 		}
 	}
