@@ -32,6 +32,8 @@ type Pipe struct {
 	Closed      bool
 	CheckValve  bool // status is one of PipeSchema.CheckValues: flow first vertex → last only
 	Zone        string
+	Street      string            // street name, "" when not given
+	Surface     string            // surface or road class as given, "" when not given
 	Length      hydraulics.Length // geodesic on WGS84, grid length in a projected layer, or the mapped length field
 	// LengthSource says where Length came from: LengthGeodesic,
 	// LengthGrid or LengthField ("" for a pipe with no usable geometry
@@ -108,6 +110,8 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 		{key: "pipes.fields.measured_c", prop: s.MeasuredC},
 		{key: "pipes.fields.status", prop: s.Status},
 		{key: "pipes.fields.zone", prop: s.Zone},
+		{key: "pipes.fields.street", prop: s.Street},
+		{key: "pipes.fields.surface", prop: s.Surface},
 		{key: "pipes.fields.length", prop: s.Length},
 	})
 	if err != nil {
@@ -169,6 +173,12 @@ func (r *pipeReader) pipe(index int, f *geojson.Feature) Pipe {
 	r.status(&p, f)
 	if v, _, ok := lookup(f.Properties, r.s.Zone); ok {
 		p.Zone = idString(v)
+	}
+	if v, _, ok := lookup(f.Properties, r.s.Street); ok {
+		p.Street = idString(v)
+	}
+	if v, _, ok := lookup(f.Properties, r.s.Surface); ok {
+		p.Surface = idString(v)
 	}
 	r.length(&p, f)
 	if !p.Usable {

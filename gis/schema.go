@@ -23,6 +23,8 @@ type PipeSchema struct {
 	ClosedValues                        []string // status values meaning closed, case-insensitive; nil = {"closed"}
 	CheckValues                         []string // status values marking a check valve (flow first vertex → last only), case-insensitive; nil = none
 	Zone                                string   // optional
+	Street                              string   // optional: street name
+	Surface                             string   // optional: surface or road class, free text
 	Length                              string   // optional: a positive value overrides the geodesic length
 	LengthUnit                          string   // "ft" (default) or "m"
 }
