@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"strconv"
 )
 
 // Materials.
@@ -270,4 +271,183 @@ func (g *generator) placeValves() error {
 		}
 	}
 	return errors.New("closed valves cut the network")
+}
+
+// Street names. Each pipe lies under one named street: a grid street keeps
+// its name along the whole lattice line it runs on (across bridges, the
+// arterial loop and the open ground to a supply site), a curving collector
+// keeps one name along its arc, each cul-de-sac and each spur lane has its
+// own, and the road down the river corridor carries on the name of the grid
+// street it leaves. Names are invented: a base word and a suffix of the
+// street's kind, shuffled by a random stream of their own so that the other
+// layers are the same with or without them.
+var streetBases = []string{
+	"Tansy", "Ostler", "Bramble", "Larkspur", "Thimble", "Cobbler", "Wicket", "Fennel",
+	"Tinder", "Sorrel", "Pewter", "Mallow", "Cinder", "Juniper", "Teasel", "Saddler",
+	"Yarrow", "Bellwether", "Dovecote", "Marram", "Chandler", "Spindle", "Furrow", "Kestrel",
+	"Lantern", "Millrace", "Rookery", "Tallow", "Sexton", "Wheelwright", "Haywain", "Lintel",
+	"Peddler", "Sickle", "Thresher", "Cooper", "Loomis", "Gimlet", "Hearthstone", "Quoit",
+}
+
+// Kinds of street name, each with suffixes no other kind uses, so names of
+// different kinds never collide.
+const (
+	poolGrid  uint8 = iota // grid streets
+	poolCurve              // curving collectors
+	poolCourt              // cul-de-sacs
+	poolLane               // spur lanes into a block
+	poolCount
+)
+
+var (
+	streetSuffixes = [poolCount][]string{
+		poolGrid:  {"Street", "Avenue", "Lane", "Row", "Road", "Way"},
+		poolCurve: {"Crescent", "Parkway", "Bend"},
+		poolCourt: {"Court", "Circle", "Place", "Close"},
+		poolLane:  {"Walk", "Mews", "Yard"},
+	}
+	// streetPrefixes tell apart later rounds of the same base and suffix in
+	// large towns; after them a round number is appended.
+	streetPrefixes = []string{"North", "South", "East", "West", "Upper", "Lower", "Old", "New"}
+)
+
+// streetKey identifies one named street: its pool and two numbers whose
+// meaning depends on the pool (grid: 0 row or 1 column, and its index;
+// curve: district and arc; court: edge; lane: the spur's lattice
+// coordinates ×4).
+type streetKey struct {
+	pool uint8
+	a, b int32
+}
+
+// streetNamer hands out names, injectively within each pool: the k-th
+// street of a pool takes combination perm[k mod n] of base and suffix,
+// prefixed from round 2 on, and numbered after the prefixes run out.
+type streetNamer struct {
+	perm [poolCount][]int
+	used [poolCount]int
+	seen map[streetKey]string
+}
+
+func newStreetNamer(seed uint64) *streetNamer {
+	rng := rand.New(rand.NewPCG(seed, 0x535452454554)) // "STREET"
+	s := &streetNamer{seen: map[streetKey]string{}}
+	for p := range poolCount {
+		s.perm[p] = rng.Perm(len(streetBases) * len(streetSuffixes[p]))
+	}
+	return s
+}
+
+// name returns the street of key, naming it on first use.
+func (s *streetNamer) name(key streetKey) string {
+	if n, ok := s.seen[key]; ok {
+		return n
+	}
+	k := s.used[key.pool]
+	s.used[key.pool]++
+	n := streetName(key.pool, s.perm[key.pool], k)
+	s.seen[key] = n
+	return n
+}
+
+// streetName is the k-th (0-based) name of pool p under permutation perm.
+func streetName(p uint8, perm []int, k int) string {
+	suffixes := streetSuffixes[p]
+	c := perm[k%len(perm)]
+	name := streetBases[c/len(suffixes)] + " " + suffixes[c%len(suffixes)]
+	round := k / len(perm)
+	if round == 0 {
+		return name
+	}
+	name = streetPrefixes[(round-1)%len(streetPrefixes)] + " " + name
+	if again := (round - 1) / len(streetPrefixes); again > 0 {
+		name += " " + strconv.Itoa(again+1)
+	}
+	return name
+}
+
+// streets returns the street name of every edge, in edge order.
+func (g *generator) streets() []string {
+	namer := newStreetNamer(g.seed)
+	out := make([]string, len(g.edges))
+	riverColumn := map[int32]int32{} // river-road node → grid column it continues
+	for k := range g.edges {
+		e := &g.edges[k]
+		var key streetKey
+		switch e.kind {
+		case kCurve:
+			key = g.curveStreet(e)
+		case kCul:
+			key = streetKey{pool: poolCourt, a: int32(k)}
+		case kSpur:
+			key = streetKey{pool: poolLane, a: int32(math.Round(4 * float64(e.fi))), b: int32(math.Round(4 * float64(e.fj)))}
+		case kRiverRoad:
+			col, ok := riverColumn[e.a]
+			if !ok {
+				col = e.a % int32(g.nx) // the first segment leaves the south-bank street at a lattice node
+			}
+			riverColumn[e.b] = col
+			key = streetKey{pool: poolGrid, a: 1, b: col}
+		default:
+			key = gridStreet(e)
+		}
+		out[k] = namer.name(key)
+	}
+	return out
+}
+
+// gridStreet is the lattice line of a grid edge: a row where the edge's
+// middle has a whole-number row coordinate, else a column.
+func gridStreet(e *edge) streetKey {
+	if e.fj == float32(math.Trunc(float64(e.fj))) {
+		return streetKey{pool: poolGrid, a: 0, b: int32(e.fj)}
+	}
+	return streetKey{pool: poolGrid, a: 1, b: int32(math.Round(float64(e.fi)))}
+}
+
+// curveStreet is the curving road a block-crossing main belongs to: its
+// district and which of the district's two arcs (north-east of downtown,
+// below 90°, or north-west) it lies on.
+func (g *generator) curveStreet(e *edge) streetKey {
+	z := g.zoneAt(float64(e.fi), float64(e.fj))
+	arc := int32(0)
+	if float64(e.fi) < z.x0+0.5*g.zw { // downtown's column
+		arc = 1
+	}
+	return streetKey{pool: poolCurve, a: int32(z.index), b: arc}
+}
+
+// surfaces returns every edge's road class (a PipeSurface value) from the
+// kind of street it lies under, which also sets its size: the arterial
+// loop (12–16 in) and the transmission mains in streets (18–20 in) lie
+// under arterials, and the grid streets that carry the loop are collectors
+// beyond it; the curving roads and the bridges (10 in and up) are
+// collectors; the links across open ground to the supply sites and the
+// river-corridor road are unpaved; every other street is local. (Common
+// practice for a plains town's road hierarchy, no source.)
+func (g *generator) surfaces() []string {
+	rows, cols := map[int]bool{}, map[int]bool{}
+	for _, z := range g.zones {
+		rows[z.jA], rows[z.jB], cols[z.iA], cols[z.iB] = true, true, true, true
+	}
+	out := make([]string, len(g.edges))
+	for k := range g.edges {
+		e := &g.edges[k]
+		switch e.kind {
+		case kLoop, kTransTank, kTransRes:
+			out[k] = SurfaceArterial
+		case kCurve, kBridge:
+			out[k] = SurfaceCollector
+		case kLinkTank, kLinkRes, kRiverRoad:
+			out[k] = SurfaceUnpaved
+		case kStreet:
+			out[k] = SurfaceLocal
+			if s := gridStreet(e); (s.a == 0 && rows[int(s.b)]) || (s.a == 1 && cols[int(s.b)]) {
+				out[k] = SurfaceCollector
+			}
+		default:
+			out[k] = SurfaceLocal
+		}
+	}
+	return out
 }

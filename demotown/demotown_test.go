@@ -32,11 +32,11 @@ func quillmere(t testing.TB) *Town {
 func layers(tw *Town) map[string]*geojson.FeatureCollection {
 	return map[string]*geojson.FeatureCollection{
 		"pipes": tw.Pipes, "sources": tw.Sources, "demands": tw.Demands, "elevations": tw.Elevations,
-		"hydrants": tw.Hydrants,
+		"hydrants": tw.Hydrants, "breaks": tw.Breaks, "facilities": tw.Facilities,
 	}
 }
 
-var layerNames = []string{"pipes", "sources", "demands", "elevations", "hydrants"}
+var layerNames = []string{"pipes", "sources", "demands", "elevations", "hydrants", "breaks", "facilities"}
 
 func marshal(t *testing.T, fc *geojson.FeatureCollection) []byte {
 	t.Helper()
@@ -314,7 +314,7 @@ func checkSchema(t *testing.T, fc *geojson.FeatureCollection, geom string, field
 func TestSchema(t *testing.T) {
 	tw := quillmere(t)
 	checkSchema(t, tw.Pipes, "LineString", map[string]string{PipeID: "s", PipeDiameter: "n", PipeMaterial: "s",
-		PipeYear: "n", PipeMeasuredC: "n?", PipeStatus: "s", PipeZone: "s"})
+		PipeYear: "n", PipeMeasuredC: "n?", PipeStatus: "s", PipeZone: "s", PipeStreet: "s", PipeSurface: "s"})
 	checkSchema(t, tw.Sources, "Point", map[string]string{SourceID: "s", SourceName: "s", SourceGrade: "n",
 		SourceKind: "s", SourceZone: "s"})
 	checkSchema(t, tw.Demands, "Point", map[string]string{DemandID: "s", DemandADD: "n", DemandUse: "s"})

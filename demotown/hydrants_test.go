@@ -42,7 +42,11 @@ func TestHydrantsLeaveOtherLayers(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, name := range []string{"pipes", "sources", "demands", "elevations"} {
-			sum := sha256.Sum256(marshal(t, layers(tw)[name]))
+			fc := layers(tw)[name]
+			if name == "pipes" {
+				fc = withoutStreets(fc) // the street and surface properties came later (breaks_test.go)
+			}
+			sum := sha256.Sum256(marshal(t, fc))
 			if got := hex.EncodeToString(sum[:]); got != want[opt][name] {
 				t.Errorf("%+v %s: sha256 %s, want %s", opt, name, got, want[opt][name])
 			}

@@ -106,6 +106,7 @@ func (g *generator) nodePoints(f frame) []orb.Point {
 func (g *generator) pipeLayer() *geojson.FeatureCollection {
 	f := g.frame()
 	pts := g.nodePoints(f)
+	streets, surfaces := g.streets(), g.surfaces()
 	fc := &geojson.FeatureCollection{Type: "FeatureCollection", Features: make([]*geojson.Feature, len(g.edges))}
 	for k, e := range g.edges {
 		ls := make(orb.LineString, 0, 2+len(e.via))
@@ -130,6 +131,8 @@ func (g *generator) pipeLayer() *geojson.FeatureCollection {
 			PipeMeasuredC: c,
 			PipeStatus:    status,
 			PipeZone:      g.zoneName(g.zoneAt(float64(e.fi), float64(e.fj)).index),
+			PipeStreet:    streets[k],
+			PipeSurface:   surfaces[k],
 		}}
 	}
 	return fc

@@ -18,6 +18,8 @@ const (
 	PipeMeasuredC = "c_tested" // Hazen-Williams C from a hydrant flow test, or null
 	PipeStatus    = "status"   // "open" | "closed"
 	PipeZone      = "zone"     // district, e.g. "Z01"
+	PipeStreet    = "street"   // invented name of the street the main lies under, e.g. "Tansy Lane"
+	PipeSurface   = "surface"  // road class above the main: "arterial", "collector", "local", "unpaved"
 
 	SourceID    = "site_no"   // text, unique, e.g. "QS-01"
 	SourceName  = "site_name" // e.g. "Harrow Hill Tank"
@@ -34,6 +36,32 @@ const (
 	HydrantID     = "hyd_no"     // text, unique, e.g. "QH-00042"
 	HydrantNeeded = "ff_req_gpm" // needed fire flow, US gallons per minute
 	HydrantZone   = "zone"       // district of the main it stands on
+
+	BreakID     = "break_id"   // text, unique, e.g. "QB-00042"
+	BreakDate   = "break_date" // "YYYY-MM-DD", or text that is no date where the record lost it
+	BreakPipeID = "pipe_id"    // the broken main's PipeID, or "" where the record names none
+
+	FacilityID   = "facility_id" // text, unique, e.g. "QF-03"
+	FacilityName = "name"        // e.g. "Quillmere General Hospital"
+	FacilityKind = "kind"        // one of the Facility* kinds
+)
+
+// Road classes, the PipeSurface values.
+const (
+	SurfaceArterial  = "arterial"
+	SurfaceCollector = "collector"
+	SurfaceLocal     = "local"
+	SurfaceUnpaved   = "unpaved"
+)
+
+// Critical facilities, the FacilityKind values.
+const (
+	FacilityHospital    = "hospital"
+	FacilityDialysis    = "dialysis_clinic"
+	FacilitySchool      = "school"
+	FacilityCareHome    = "care_home"
+	FacilityFireStation = "fire_station"
+	FacilityFactory     = "factory" // a plant that cannot run without water
 )
 
 // Pipe status values.
@@ -57,7 +85,7 @@ type Options struct {
 	Seed  uint64 // 0 means 1
 }
 
-// Town is a generated town: five GeoJSON layers in lon/lat (RFC 7946) and
+// Town is a generated town: seven GeoJSON layers in lon/lat (RFC 7946) and
 // the figures an analysis of it needs.
 type Town struct {
 	Name           string  // "Quillmere"
@@ -73,6 +101,14 @@ type Town struct {
 	// needed fire flow of the blocks they serve. They come from a random
 	// stream of their own: the other layers are the same with or without them.
 	Hydrants *geojson.FeatureCollection
+	// Breaks are the recorded main breaks of 2012–2025, points on or a few
+	// feet off the broken main, most naming it, with a few deliberate
+	// faults for the demo (see breakLayer). Facilities are critical
+	// customers (hospital, dialysis clinic, schools, care home, fire
+	// station, a factory that needs water), one set per district, each
+	// within about 150 ft of a main. Both come from random streams of their
+	// own, as the street names and surfaces on Pipes do.
+	Breaks, Facilities *geojson.FeatureCollection
 }
 
 // Town figures.
@@ -118,5 +154,7 @@ func Generate(opt Options) (*Town, error) {
 		Demands:        g.demandLayer(),
 		Elevations:     g.elevationLayer(),
 		Hydrants:       g.hydrantLayer(),
+		Breaks:         g.breakLayer(),
+		Facilities:     g.facilityLayer(),
 	}, nil
 }
