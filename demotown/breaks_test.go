@@ -33,7 +33,7 @@ func withoutStreets(fc *geojson.FeatureCollection) *geojson.FeatureCollection {
 // The SHA-256 values were recorded from json.Marshal of each layer with the
 // generator as it was before this change (pipes then had no street or
 // surface, so they are compared without those two properties).
-func TestIssue7LeavesOtherLayers(t *testing.T) {
+func TestNewLayersLeaveOtherLayers(t *testing.T) {
 	want := map[Options]map[string]string{
 		{}: {
 			"pipes":      "b6bc3354bf24f49925dff00aba273062e6d05ab0e73fe74192ec210f66eb5ccb",
