@@ -116,10 +116,10 @@ func TestKilledRunLeavesPreviousOutputs(t *testing.T) {
 		t.Fatalf("first run: exit %d: %s", code, stderr)
 	}
 	before, folders := atomicSnapshot(t, out)
-	// ranked.csv, problems.csv, c_calibration.csv, and pipes, nodes and
-	// hydrants as GeoJSON and GeoPackage
-	if len(before) != 9 || len(folders) != 0 {
-		t.Fatalf("first run wrote %d files and %d folders, want 9 files and no folder", len(before), len(folders))
+	// ranked.csv, problems.csv, c_calibration.csv, projects.csv, plan.csv,
+	// and pipes, nodes, hydrants and projects as GeoJSON and GeoPackage
+	if len(before) != 13 || len(folders) != 0 {
+		t.Fatalf("first run wrote %d files and %d folders, want 13 files and no folder", len(before), len(folders))
 	}
 
 	var stderr bytes.Buffer
@@ -460,7 +460,7 @@ func TestShapefileOutputsAllMoved(t *testing.T) {
 			want = append(want, l+part)
 		}
 	}
-	want = append(want, "ranked.csv", "fields.csv", "c_calibration.csv", "problems.csv")
+	want = append(want, "ranked.csv", "fields.csv", "c_calibration.csv", "problems.csv", "projects.csv", "plan.csv")
 	for _, f := range want {
 		if _, ok := files[f]; !ok {
 			t.Errorf("%s not in --out", f)

@@ -40,6 +40,15 @@ type Config struct {
 	Upsizing     UpsizingConfig `toml:"upsizing"`
 	Sizing       SizingConfig   `toml:"sizing"` // sizes.go
 
+	// The replacement program (program.go).
+	Breaks     BreakLayer      `toml:"breaks"`
+	Facilities FacilityLayer   `toml:"facilities"`
+	Risk       RiskConfig      `toml:"risk"`
+	Economics  EconomicsConfig `toml:"economics"`
+	Projects   ProjectsConfig  `toml:"projects"`
+	Costs      CostsConfig     `toml:"costs"`
+	Plan       PlanConfig      `toml:"plan"`
+
 	// dir is the folder relative paths are read from; file is the config's
 	// own name for messages ("built-in demo" when there is none).
 	dir, file string
@@ -76,6 +85,8 @@ type PipeFields struct {
 	ClosedValues []string `toml:"closed_values"`
 	CheckValues  []string `toml:"check_values"`
 	Zone         string   `toml:"zone"`
+	Street       string   `toml:"street"`     // street name: projects follow one street (program.go)
+	Surface      string   `toml:"surface"`    // surface or road class: cost factor and consequence (program.go)
 	LinedYear    string   `toml:"lined_year"` // year lined or rehabilitated: restarts the age (aging.go)
 	Length       string   `toml:"length"`
 	LengthUnit   string   `toml:"length_unit"`
@@ -385,6 +396,7 @@ func (c *Config) validate() error {
 	errs = append(errs, c.layerFlowValidate()...)
 	errs = append(errs, c.sizeValidate()...)
 	errs = append(errs, c.cureValidate()...)
+	errs = append(errs, c.progValidate()...)
 	if c.Elevations.Neighbours == 0 {
 		c.Elevations.Neighbours = defaultNeighbours
 	}
@@ -688,6 +700,7 @@ func (c *Config) pipeSchema() gis.PipeSchema {
 		ID: f.ID, Diameter: f.Diameter, DiameterUnit: f.DiameterUnit, Material: f.Material,
 		InstallYear: f.InstallYear, MeasuredC: f.MeasuredC, Status: f.Status,
 		ClosedValues: f.ClosedValues, Zone: f.Zone, Length: f.Length, LengthUnit: f.LengthUnit,
+		Street: f.Street, Surface: f.Surface,
 		CheckValues: f.CheckValues,
 	}
 }

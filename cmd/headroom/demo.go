@@ -22,7 +22,12 @@ const (
 	demoDemands    = "quillmere-demands.geojson"
 	demoElevations = "quillmere-spot-heights.geojson"
 	demoHydrants   = "quillmere-hydrants.geojson"
-	demoConfigName = "headroom.toml"
+	demoBreaks     = "quillmere-breaks.geojson"
+	// demoAnnualBudget is the demo town's (invented) yearly main
+	// replacement budget, in dollars.
+	demoAnnualBudget = 3e6
+	demoFacilities   = "quillmere-facilities.geojson"
+	demoConfigName   = "headroom.toml"
 
 	// The range of --pipes: the smallest town that holds a whole district,
 	// and the largest the issue asks the generator to scale to.
@@ -57,7 +62,7 @@ func demoCommand(args []string, stdout, stderr io.Writer) error {
 		name string
 		fc   *geojson.FeatureCollection
 	}{{demoPipes, town.Pipes}, {demoSources, town.Sources}, {demoDemands, town.Demands}, {demoElevations, town.Elevations},
-		{demoHydrants, town.Hydrants}}
+		{demoHydrants, town.Hydrants}, {demoBreaks, town.Breaks}, {demoFacilities, town.Facilities}}
 	for _, l := range layers {
 		path := filepath.Join(*out, l.name)
 		if err := gis.WriteCollection(path, l.fc); err != nil {
@@ -87,7 +92,16 @@ func demoConfig(town *demotown.Town) *Config {
 		ID: demotown.PipeID, Diameter: demotown.PipeDiameter, DiameterUnit: "in", Material: demotown.PipeMaterial,
 		InstallYear: demotown.PipeYear, MeasuredC: demotown.PipeMeasuredC, Status: demotown.PipeStatus,
 		ClosedValues: []string{"closed"}, Zone: demotown.PipeZone, LengthUnit: "ft",
+		Street: demotown.PipeStreet, Surface: demotown.PipeSurface,
 	}}
+	c.Breaks = BreakLayer{LayerFile: LayerFile{Path: demoBreaks}, Fields: BreakFields{
+		ID: demotown.BreakID, Date: demotown.BreakDate, PipeID: demotown.BreakPipeID,
+	}}
+	c.Facilities = FacilityLayer{LayerFile: LayerFile{Path: demoFacilities}, Fields: FacilityFields{
+		ID: demotown.FacilityID, Kind: demotown.FacilityKind,
+	}}
+	budget := demoAnnualBudget
+	c.Plan = PlanConfig{AnnualBudget: &budget}
 	c.Sources = SourceLayer{LayerFile: LayerFile{Path: demoSources}, Fields: SourceFields{
 		ID: demotown.SourceID, Name: demotown.SourceName, Grade: demotown.SourceGrade, GradeUnit: "ft",
 	}}
@@ -133,7 +147,7 @@ func builtInDemo() (*inputs, error) {
 	return &inputs{
 		cfg: cfg, title: town.Name + " demo town (built-in)",
 		pipes: town.Pipes, sources: town.Sources, demands: town.Demands, elevations: town.Elevations,
-		hydrants: town.Hydrants,
+		hydrants: town.Hydrants, breaks: town.Breaks, facilities: town.Facilities,
 	}, nil
 }
 

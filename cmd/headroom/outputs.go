@@ -85,6 +85,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		}
 		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
 	}
+	outs = append(outs, r.progOutputs()...) // projects.csv, plan.csv, projects layers (programout.go)
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
@@ -231,6 +232,7 @@ func (r *result) pipeColumns() []gis.Column {
 		{Name: "required_diameter_" + d, Kind: gis.Real, Decimals: 1},
 	}
 	cols = append(cols, r.curePipeColumns()...) // recommended_diameter_in (upsize.go)
+	cols = append(cols, r.progPipeColumns()...) // risk, priority, project (programout.go)
 	for _, sc := range r.otherScenarios() {
 		cols = append(cols, gis.Column{Name: sc.prefix + "flow_" + q, Kind: gis.Real, Decimals: 2},
 			gis.Column{Name: sc.prefix + "headloss_" + h, Kind: gis.Real, Decimals: 3})
@@ -286,6 +288,7 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]a
 		v[k] = x
 	}
 	r.curePipeValues(i, v) // recommended_diameter_in (upsize.go)
+	r.progPipeValues(i, v) // risk, priority, project (programout.go)
 	if p.InstallYear > 0 {
 		v["install_year"] = p.InstallYear
 	}

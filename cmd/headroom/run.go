@@ -59,6 +59,7 @@ type inputs struct {
 	// are the layer file names used in messages either way.
 	pipes, sources, demands, elevations *geojson.FeatureCollection
 	hydrants                            *geojson.FeatureCollection // optional
+	breaks, facilities                  *geojson.FeatureCollection // optional (program.go)
 	// crs is --crs: the coordinate system of a layer that declares none
 	// and has no crs key of its own.
 	crs *gis.CRS
@@ -129,6 +130,8 @@ type result struct {
 	// index into hydrants of each hydrant it checks
 	cure        *hydraulics.UpsizeResult
 	cureHydrant []int
+
+	prog *progResult // the replacement program (program.go)
 }
 
 // analyse runs the pipeline: read, build, allocate, age, solve, check, score.
@@ -138,6 +141,11 @@ func analyse(in *inputs) (*result, error) {
 	if in.pipes == nil {
 		r.inputPaths = []string{cfg.path(cfg.Pipes.Path), cfg.path(cfg.Sources.Path),
 			cfg.path(cfg.Demands.Path), cfg.path(cfg.Elevations.Path), filepath.Join(cfg.dir, cfg.file)}
+		for _, optional := range []string{cfg.Hydrants.Path, cfg.Breaks.Path, cfg.Facilities.Path} {
+			if optional != "" {
+				r.inputPaths = append(r.inputPaths, cfg.path(optional))
+			}
+		}
 	}
 	if err := readLayers(in, r); err != nil {
 		if errors.Is(err, gis.ErrNoUsable) {
@@ -210,6 +218,9 @@ func analyse(in *inputs) (*result, error) {
 	r.scores = scores
 	r.flagNegativePressure(negative)
 	if err := r.cureRun(); err != nil {
+		return nil, err
+	}
+	if err := r.progRun(in); err != nil {
 		return nil, err
 	}
 	return r, nil

@@ -22,8 +22,9 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata/de
 // files; binaryOutputs are compared between runs but not kept (a binary
 // golden file cannot be reviewed as a diff).
 var (
-	outputFiles   = []string{"ranked.csv", "pipes.geojson", "nodes.geojson", "hydrants.geojson", "problems.csv"}
-	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg", "hydrants.gpkg"}
+	outputFiles = []string{"ranked.csv", "pipes.geojson", "nodes.geojson", "hydrants.geojson", "problems.csv",
+		"projects.csv", "plan.csv", "projects.geojson"}
+	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg", "hydrants.gpkg", "projects.gpkg"}
 )
 
 // runHeadroom runs the command in-process and returns its exit code and output.

@@ -18,6 +18,7 @@ var cautions = []string{
 	"Planning-level screening, not a calibrated hydraulic model: results rest on assumed C-factors, demand allocation, the peaking factor, source grades and elevations, none checked against field tests unless you supplied measured C values.",
 	"Aged C-factors are estimates (the Sharp & Walski fit has a 95 % band of about ±15 in C); treat deficits near a criterion as possible, not certain.",
 	"Steady state only: no pumps or controls over time, no tank drain-down, no transients.",
+	"Costs are order-of-magnitude unit prices (the built-in ones are invented demonstration figures): replace them with local bid tabulations; risk scores and economic replacement years follow from the configured factors, weights and break records and support, not replace, the planner's judgement.",
 	"Fire-flow figures are model estimates, not hydrant flow tests; pressure and fire-flow decisions follow the locally adopted codes and the fire authority having jurisdiction; designs and submittals need the review and seal of a licensed professional engineer.",
 }
 
@@ -34,6 +35,7 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 	r.ctlSummarisePumps(p)
 	r.summariseFireFlow(p)
 	r.cureSummarise(p)
+	r.progSummarise(p)
 	r.ageSummarise(p)
 	r.summariseTop(&b)
 	p("\nCriteria (peak hour): unit head loss %.1f %s, velocity %.1f %s, pressure %.1f %s; design C %.0f for sizing\n",

@@ -66,6 +66,8 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("closed_values = %s  # status values meaning closed (no flow), any case\n", list(orDefaultList(f.ClosedValues, []string{"closed"})))
 	p("check_values = %s  # status values marking a check valve: flow only first vertex → last, any case\n", list(orDefaultList(f.CheckValues, []string{})))
 	p("zone = %s  # optional pressure zone\n", str(f.Zone))
+	p("street = %s  # optional street name: a project follows one street\n", str(f.Street))
+	p("surface = %s  # optional surface or road class (arterial, collector, local, unpaved): cost factor and consequence of failure\n", str(f.Surface))
 	p("length = %s  # optional: overrides the geodesic length when > 0\n", str(f.Length))
 	p("length_unit = %s  # \"ft\" or \"m\"\n", str(orDefault(f.LengthUnit, "ft")))
 	p("flow = %s  # optional: each pipe's flow from a model run elsewhere, positive first vertex → last; read with solver.flows = \"from_layer\"\n", str(f.Flow))
@@ -161,7 +163,8 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("formats = %s  # pipe and node layers: \"geojson\" (WGS84), \"gpkg\" and \"shp\" (the pipe layer's coordinate system)\n\n",
 		list(orDefaultList(c.Output.Formats, defaultFormats)))
 
-	b.WriteString(ageTemplate(c)) // [aging], its curves and growth models (aging.go)
+	b.WriteString(ageTemplate(c))  // [aging], its curves and growth models (aging.go)
+	b.WriteString(progTemplate(c)) // [breaks] … [plan] (program.go)
 	_, err := io.WriteString(w, b.String())
 	return err
 }

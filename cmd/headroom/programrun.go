@@ -1,0 +1,371 @@
+package main
+
+import (
+	"cmp"
+	"fmt"
+	"math"
+	"slices"
+
+	"headroom/gis"
+	"headroom/hydraulics"
+	"headroom/scoring"
+)
+
+// progRun builds the replacement program after scoring and the upsizing
+// loop: break rates and cohorts, facilities near each main, risk and
+// priority, each main's economic replacement year, the projects and the
+// budget plan.
+func (r *result) progRun(in *inputs) error {
+	cfg := r.cfg
+	p := &progResult{}
+	r.prog = p
+	var err error
+	if p.riskCfg, err = cfg.progRisk(); err != nil {
+		return err
+	}
+	if p.costs, err = cfg.progCosts(); err != nil {
+		return err
+	}
+	if err := r.progReadBreaks(in); err != nil {
+		return err
+	}
+	if err := r.progReadFacilities(in); err != nil {
+		return err
+	}
+	r.progAssess()
+	r.progEconomics()
+	if err := r.progGroup(); err != nil {
+		return err
+	}
+	return r.progPlan()
+}
+
+// progReadBreaks reads the break layer, joins each break to a main and
+// counts the rates per main and per cohort.
+func (r *result) progReadBreaks(in *inputs) error {
+	cfg, p := r.cfg, r.prog
+	if cfg.Breaks.Path == "" && in.breaks == nil {
+		return nil
+	}
+	c, err := openLayer(in, layerConfig{"breaks", cfg.Breaks.LayerFile}, in.breaks)
+	if err != nil {
+		return err
+	}
+	f := cfg.Breaks.Fields
+	bs, probs, err := gis.BreaksFromCollection(c.File, c.LonLat(), gis.BreakSchema{ID: f.ID, Date: f.Date, PipeID: f.PipeID, AnalysisYear: cfg.AnalysisYear})
+	r.problems = append(r.problems, probs...)
+	if err != nil {
+		return err
+	}
+	match, probs := gis.JoinBreaks(r.pipes, bs, hydraulics.Length(cfg.si(cfg.progBreakDistance())))
+	r.problems = append(r.problems, probs...)
+	p.breaks, p.breakMatch = bs, match
+	var records []scoring.BreakRecord
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for k, b := range bs {
+		if b.Usable {
+			records = append(records, scoring.BreakRecord{Pipe: match[k].Pipe, Year: b.Year})
+			lo, hi = min(lo, b.Year), max(hi, b.Year)
+		}
+	}
+	p.window = scoring.BreakWindow{From: cfg.Breaks.FirstYear, To: cfg.Breaks.LastYear}
+	if p.window.From == 0 && len(records) > 0 {
+		p.window.From = int(math.Floor(lo))
+	}
+	if p.window.To == 0 && len(records) > 0 {
+		p.window.To = int(math.Floor(hi))
+	}
+	if len(records) == 0 {
+		p.window = scoring.BreakWindow{From: cfg.AnalysisYear - 1, To: cfg.AnalysisYear - 1}
+	}
+	if err := p.window.Validate(); err != nil {
+		return fmt.Errorf("breaks: %w; check breaks.first_year and breaks.last_year", err)
+	}
+	p.tally = scoring.TallyBreaks(records, p.window)
+	pipes := r.progBreakPipes()
+	p.pipeBreaks = scoring.PipeBreakRates(pipes, records, p.window)
+	minBreaks := orDefaultInt(cfg.Economics.MinCohortBreaks, progDefaultCohortBreaks)
+	p.cohorts = scoring.BreakCohorts(pipes, records, p.window, scoring.CohortOptions{
+		MinBreaks: minBreaks, DefaultGrowth: orDefaultPtr(cfg.Economics.DefaultGrowth, progDefaultGrowth)})
+	return nil
+}
+
+// progBreakPipes are the input pipes as the break statistics see them.
+func (r *result) progBreakPipes() []scoring.BreakPipe {
+	out := make([]scoring.BreakPipe, len(r.pipes))
+	for i, p := range r.pipes {
+		out[i] = scoring.BreakPipe{Length: p.Length, Material: p.Material, InstallYear: p.InstallYear}
+	}
+	return out
+}
+
+// progReadFacilities reads the critical-facility layer and finds the
+// nearest facility to each main, out to the farthest edge of the
+// facility factor (beyond it every main scores 1).
+func (r *result) progReadFacilities(in *inputs) error {
+	cfg, p := r.cfg, r.prog
+	if cfg.Facilities.Path == "" && in.facilities == nil {
+		return nil
+	}
+	c, err := openLayer(in, layerConfig{"facilities", cfg.Facilities.LayerFile}, in.facilities)
+	if err != nil {
+		return err
+	}
+	fs, probs, err := gis.FacilitiesFromCollection(c.File, c.LonLat(), gis.FacilitySchema{ID: cfg.Facilities.Fields.ID, Kind: cfg.Facilities.Fields.Kind})
+	r.problems = append(r.problems, probs...)
+	if err != nil {
+		return err
+	}
+	p.facilities = fs
+	within := slices.Max(p.riskCfg.Facility.Scale.Edges[:])
+	p.facilityNear = gis.NearestFacilities(r.pipes, fs, hydraulics.Length(within))
+	return nil
+}
+
+// progAssess scores the risk and the priority of every scored main.
+func (r *result) progAssess() {
+	cfg, p := r.cfg, r.prog
+	n := len(r.pipes)
+	p.risk, p.priority = make([]scoring.Risk, n), make([]float64, n)
+	use, perf, ids := make([]bool, n), make([]float64, n), make([]string, n)
+	for i, pipe := range r.pipes {
+		ids[i] = pipe.ID
+		sc := r.scores[i]
+		if !sc.Scored {
+			continue
+		}
+		age := math.NaN()
+		if pipe.InstallYear > 0 {
+			age = float64(cfg.AnalysisYear - pipe.InstallYear)
+		}
+		rp := scoring.RiskPipe{Age: age, Material: pipe.Material, C: r.cFactor[i], Diameter: float64(pipe.Diameter),
+			Flow: math.Abs(float64(r.checks[r.governing(i)].Flow)), FacilityDistance: math.NaN(),
+			Road: pipe.Surface, HasRoad: cfg.Pipes.Fields.Surface != "", HasBreaks: p.pipeBreaks != nil}
+		if p.pipeBreaks != nil {
+			rp.BreakRate = p.pipeBreaks[i].PerLengthYear
+		}
+		if p.facilityNear != nil {
+			rp.FacilityDistance = math.Inf(1)
+			if f := p.facilityNear[i]; f.Facility >= 0 {
+				rp.FacilityDistance = float64(f.Distance)
+			}
+		}
+		p.risk[i] = scoring.AssessRisk(rp, p.riskCfg)
+		p.priority[i] = scoring.Priority(p.risk[i].Value, sc.Score, p.riskCfg)
+		use[i], perf[i] = true, sc.Score
+	}
+	p.priorityRank = scoring.PriorityRanks(p.priority, perf, ids, use)
+}
+
+// progNewDiameter is the nominal size input pipe i is replaced at: the
+// upsizing loop's recommendation, else its present size.
+func (r *result) progNewDiameter(i int) hydraulics.Length {
+	if r.cure != nil {
+		if d := r.cureRecommended(i); d > 0 {
+			return d
+		}
+	}
+	return r.pipes[i].Diameter
+}
+
+// progEconomics gives each scored main with a break record its economic
+// replacement year by Shamir & Howard (1979): the main's own break rate
+// when it had at least two breaks in the record, else its cohort's rate at
+// the end of the record, growing at the cohort's fitted (or default) rate.
+func (r *result) progEconomics() {
+	cfg, p := r.cfg, r.prog
+	p.replaceYear = make([]float64, len(r.pipes))
+	p.replaceState = make([]scoring.ReplacementState, len(r.pipes))
+	for i := range p.replaceYear {
+		p.replaceYear[i] = math.NaN()
+	}
+	if p.pipeBreaks == nil {
+		return
+	}
+	for i, pipe := range r.pipes {
+		if !r.scores[i].Scored {
+			continue
+		}
+		co := progCohortOf(p.cohorts, pipe)
+		if co == nil {
+			continue
+		}
+		n0 := co.BaseRate
+		if pb := p.pipeBreaks[i]; pb.Count >= 2 {
+			n0 = pb.PerLengthYear
+		}
+		y, state := scoring.OptimalReplacementYear(scoring.ReplacementEconomics{
+			BaseYear: float64(p.window.To), BaseRate: n0, Growth: co.Growth,
+			RepairCost:      orDefaultPtr(cfg.Economics.RepairCost, progDefaultRepairCost),
+			ReplacementCost: p.costs.PerMetre(float64(r.progNewDiameter(i)), pipe.Surface),
+			DiscountRate:    orDefaultPtr(cfg.Economics.DiscountRate, progDefaultDiscountRate),
+		})
+		if state == scoring.ReplacementFuture && y > float64(p.window.To+progHorizonYears) {
+			y, state = math.Inf(1), scoring.ReplacementNever // growth so slow that the year means nothing
+		}
+		p.replaceYear[i], p.replaceState[i] = y, state
+	}
+}
+
+// progCohortOf finds the cohort (material × install decade) of a pipe.
+func progCohortOf(cohorts []scoring.Cohort, p gis.Pipe) *scoring.Cohort {
+	decade := 0
+	if p.InstallYear > 0 {
+		decade = p.InstallYear / 10 * 10
+	}
+	for k := range cohorts {
+		if cohorts[k].Material == p.Material && cohorts[k].Decade == decade {
+			return &cohorts[k]
+		}
+	}
+	return nil
+}
+
+// progGroup marks the qualifying mains and groups them into projects.
+func (r *result) progGroup() error {
+	cfg, p := r.cfg, r.prog
+	first, years := cfg.progPlanYears()
+	last := float64(first + years - 1)
+	minPriority := orDefaultPtr(cfg.Projects.MinPriority, progDefaultMinPriority)
+	segs := make([]scoring.Segment, len(r.pipes))
+	p.qualifies = make([]bool, len(r.pipes))
+	for i, pipe := range r.pipes {
+		if !r.scores[i].Scored {
+			segs[i].Skip = true
+			continue
+		}
+		due := !math.IsNaN(p.replaceYear[i]) && p.replaceYear[i] <= last
+		upsized := r.cure != nil && r.cureRecommended(i) > 0
+		p.qualifies[i] = p.priority[i] >= minPriority || upsized || due
+		e := r.topo.Ends[i]
+		segs[i] = scoring.Segment{From: e[0], To: e[1], Length: float64(pipe.Length), Street: pipe.Street, Qualifies: p.qualifies[i]}
+	}
+	r.progMustDoUnknown()
+	byStreet := cfg.Pipes.Fields.Street != ""
+	if cfg.Projects.ByStreet != nil {
+		byStreet = *cfg.Projects.ByStreet
+	}
+	groups, err := scoring.GroupSegments(segs, scoring.GroupOptions{
+		MaxLength: cfg.si(cfg.progMaxLength()), MaxGap: cfg.si(cfg.progMaxGap()), ByStreet: byStreet})
+	if err != nil {
+		return err
+	}
+	for _, g := range groups {
+		p.projects = append(p.projects, r.progProjectOf(g, last))
+	}
+	slices.SortStableFunc(p.projects, func(a, b progProject) int {
+		if c := cmp.Compare(b.meanPriority, a.meanPriority); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.segments[0], b.segments[0])
+	})
+	p.projectOf = make([]int, len(r.pipes))
+	for i := range p.projectOf {
+		p.projectOf[i] = -1
+	}
+	for k := range p.projects {
+		p.projects[k].id = fmt.Sprintf("PRJ-%03d", k+1)
+		for _, i := range p.projects[k].segments {
+			p.projectOf[i] = k
+		}
+	}
+	return nil
+}
+
+// progMustDoUnknown reports must-do pipe ids that name no pipe.
+func (r *result) progMustDoUnknown() {
+	for _, id := range r.cfg.Plan.MustDoPipes {
+		if !slices.ContainsFunc(r.pipes, func(p gis.Pipe) bool { return p.ID == id }) {
+			r.problems = append(r.problems, gis.Problem{File: r.cfg.file, ID: id, Field: "plan.must_do_pipes",
+				What: fmt.Sprintf("pipe id %q names no pipe of the pipe layer", id), Action: "ignored; check the id against pipes.fields.id"})
+		}
+	}
+}
+
+// progProjectOf turns a group into a project with its figures.
+func (r *result) progProjectOf(g scoring.Group, lastYear float64) progProject {
+	cfg, p := r.cfg, r.prog
+	s := cfg.system()
+	pr := progProject{segments: g.Segments, gap: g.Gap, worstPriority: math.Inf(-1)}
+	streetLength := map[string]hydraulics.Length{} // lookup only
+	var counted hydraulics.Length                  // qualifying (non-gap) length
+	var sumPriority, sumPerf float64
+	must := map[string]bool{} // lookup only
+	for _, id := range cfg.Plan.MustDoPipes {
+		must[id] = true
+	}
+	for k, i := range g.Segments {
+		pipe := r.pipes[i]
+		l := pipe.Length
+		pr.length += l
+		pr.cost += float64(l) * p.costs.PerMetre(float64(r.progNewDiameter(i)), pipe.Surface)
+		pr.benefit += p.priority[i] / 100 * s.Length(l)
+		streetLength[pipe.Street] += l
+		if must[pipe.ID] {
+			pr.mustDo = true
+		}
+		if g.Gap[k] {
+			pr.gapLength += l
+			continue
+		}
+		if r.cure != nil && r.cureRecommended(i) > 0 {
+			pr.upsizedLength += l
+		}
+		if sh := r.progFireCharge(i); sh != nil && !slices.Contains(pr.hydrants, sh.Hydrant) {
+			pr.hydrants = append(pr.hydrants, sh.Hydrant)
+		}
+		if y := p.replaceYear[i]; !math.IsNaN(y) && y <= lastYear {
+			pr.due++
+		}
+		pr.worstPriority = max(pr.worstPriority, p.priority[i])
+		pr.maxRisk = max(pr.maxRisk, p.risk[i].Value)
+		counted += l
+		sumPriority += p.priority[i] * float64(l)
+		sumPerf += r.scores[i].Score * float64(l)
+	}
+	pr.cost += p.costs.PerProject
+	if counted > 0 {
+		pr.meanPriority, pr.meanPerformance = sumPriority/float64(counted), sumPerf/float64(counted)
+	}
+	for _, name := range sortedKeys(streetLength) {
+		if pr.street == "" || streetLength[name] > streetLength[pr.street] {
+			pr.street = name
+		}
+	}
+	return pr
+}
+
+// progFireCharge is the fire-flow shortfall input pipe i is charged
+// with, nil for none or with fire flow off.
+func (r *result) progFireCharge(i int) *scoring.FireFlowShortfall {
+	if i < len(r.fireCharge) {
+		return r.fireCharge[i]
+	}
+	return nil
+}
+
+// progPlan schedules the projects within the annual budget.
+func (r *result) progPlan() error {
+	cfg, p := r.cfg, r.prog
+	p.budget = orDefaultPtr(cfg.Plan.AnnualBudget, 0)
+	if p.budget == 0 || len(p.projects) == 0 {
+		return nil
+	}
+	first, years := cfg.progPlanYears()
+	in := make([]scoring.PlanProject, len(p.projects))
+	for k, pr := range p.projects {
+		in[k] = scoring.PlanProject{ID: pr.id, Cost: pr.cost, Benefit: pr.benefit, MustDo: pr.mustDo}
+	}
+	plan, err := scoring.Plan(in, scoring.PlanOptions{FirstYear: first, Years: years, AnnualBudget: p.budget,
+		Escalation: orDefaultPtr(cfg.Plan.Escalation, progDefaultEscalation)})
+	if err != nil {
+		return fmt.Errorf("plan: %w", err)
+	}
+	p.plan = plan
+	for _, y := range plan.Years {
+		for _, k := range y.Projects {
+			p.projects[k].year = y.Year
+		}
+	}
+	return nil
+}
