@@ -344,6 +344,28 @@ func checkAccounting(t *testing.T, dir, out, stdout string, rows [][]string, pip
 	if cfg.Hydrants.Path != "" { // hydrant rows (needed.go) name features of the hydrant layer
 		sizes[filepath.Base(cfg.Hydrants.Path)] = len(readInputFeatures(t, cfg.path(cfg.Hydrants.Path)))
 	}
+	if cfg.Facilities.Path != "" {
+		sizes[filepath.Base(cfg.Facilities.Path)] = len(readInputFeatures(t, cfg.path(cfg.Facilities.Path)))
+	}
+	if cfg.Breaks.Path != "" {
+		// Breaks: each joined to a main or left out with a problems.csv row.
+		breakFile := filepath.Base(cfg.Breaks.Path)
+		in := readInputFeatures(t, cfg.path(cfg.Breaks.Path))
+		sizes[breakFile] = len(in)
+		notJoined := 0
+		for k := range in {
+			if leftOut(breakFile, k+1, "break left out", "break not joined") {
+				notJoined++
+			}
+		}
+		m := regexp.MustCompile(`(\d+) breaks: (\d+) joined by pipe id, (\d+) to the nearest main, (\d+) matched no main`).FindStringSubmatch(stdout)
+		if m == nil {
+			t.Fatalf("the summary has no break line:\n%s", stdout)
+		}
+		if m[1] != strconv.Itoa(len(in)) || m[4] != strconv.Itoa(notJoined) {
+			t.Errorf("summary: %s breaks, %s matched no main; the layer has %d, problems.csv leaves %d out", m[1], m[4], len(in), notJoined)
+		}
+	}
 	for file, features := range listed {
 		for k := range features {
 			if n, ok := sizes[file]; !ok || k < 1 || k > n {
