@@ -85,7 +85,11 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		}
 		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
 	}
-	outs = append(outs, r.progOutputs()...) // projects.csv, plan.csv, projects layers (programout.go)
+	prog, err := r.progOutputs() // projects.csv, plan.csv, projects layers (programout.go)
+	if err != nil {
+		return nil, err
+	}
+	outs = append(outs, prog...)
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})

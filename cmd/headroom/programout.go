@@ -155,10 +155,13 @@ func (r *result) progProjectLayer() *gis.Layer {
 // even without a budget, so an old plan never outlives its run) and the
 // projects layer in the GeoJSON and GeoPackage
 // formats asked for.
-func (r *result) progOutputs() []output {
+func (r *result) progOutputs() ([]output, error) {
 	projects, plan := r.progProjectLayer(), r.progPlanLayer()
 	if projects == nil {
-		return nil
+		return nil, nil
+	}
+	if err := checkFinite(projects, plan); err != nil {
+		return nil, err
 	}
 	csv := &gis.Layer{Name: projects.Name, Columns: projects.Columns}
 	for _, row := range projects.Rows {
@@ -173,7 +176,7 @@ func (r *result) progOutputs() []output {
 		srs := spatialRef(r.pipeLayerCRS)
 		outs = append(outs, output{"projects.gpkg", func(p string) error { return gis.WriteGeoPackage(p, srs, r.projected(projects)) }})
 	}
-	return outs
+	return outs, nil
 }
 
 // progReasons says why a project is in the program.
