@@ -2,10 +2,31 @@ package main
 
 import (
 	"path/filepath"
+	"sync"
 	"testing"
 
 	"github.com/paulmach/orb/geojson"
 )
+
+// demoAnalysed is the built-in demo run, analysed once for the tests that
+// only read its result (it takes several seconds).
+var demoAnalysed = sync.OnceValues(func() (*result, error) {
+	in, err := builtInDemo()
+	if err != nil {
+		return nil, err
+	}
+	return analyse(in)
+})
+
+// demoResult returns the shared demo analysis; callers must not change it.
+func demoResult(t *testing.T) *result {
+	t.Helper()
+	r, err := demoAnalysed()
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
 
 // analyseConfig loads the config at configPath and runs the pipeline in
 // process, failing the test on any error.

@@ -40,14 +40,7 @@ func progNumber(t *testing.T, s string) float64 {
 // (issue 7, done-when). The checks read the written files and recompute
 // the figures from the documented cost table, not from the code's.
 func TestProgramDemoTown(t *testing.T) {
-	in, err := builtInDemo()
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := analyse(in)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := demoResult(t)
 	out := t.TempDir()
 	if _, err := writeOutputs(out, r, writeOptions{}); err != nil {
 		t.Fatal(err)

@@ -244,6 +244,8 @@ func TestOutputsOpenInGDAL(t *testing.T) {
 	}{
 		{"pipes.geojson", len(in.pipes.Features), []string{"pipe_id:", "diameter_in:", "flow_gpm: Real", "headloss_ft_per_kft: Real", "rank: Integer", "reasons: String"}},
 		{"nodes.geojson", -1, []string{"node_id:", "head_ft: Real", "pressure_psi: Real"}},
+		{"projects.geojson", len(readCSV(t, filepath.Join(dir, "projects.csv"))) - 1, []string{"project_id: String", "cost_usd:", "plan_year: Integer", "Geometry: Multi Line String"}},
+		{"projects.gpkg", len(readCSV(t, filepath.Join(dir, "projects.csv"))) - 1, []string{"project_id: String", "cost_usd: Real"}},
 	}
 	for _, c := range cases {
 		out, err := exec.Command("ogrinfo", "-ro", "-al", "-so", filepath.Join(dir, c.file)).CombinedOutput()
@@ -280,7 +282,8 @@ func TestInitTemplateLoadsToDefaults(t *testing.T) {
 	if got, want := len(cfg.agingTable().Curves), len(hydraulics.DefaultAgingTable().Curves); got != want {
 		t.Errorf("template has %d aging curves, want %d", got, want)
 	}
-	for _, key := range []string{"snap_tolerance_ft", "max_headloss_ft_per_kft", "max_velocity_fps", "min_pressure_psi", "peak_hour_factor", "[weights]", "[[aging.curve]]"} {
+	for _, key := range []string{"snap_tolerance_ft", "max_headloss_ft_per_kft", "max_velocity_fps", "min_pressure_psi", "peak_hour_factor", "[weights]", "[[aging.curve]]",
+		"[breaks]", "[risk.edges]", "[economics]", "[projects]", "per_ft_by_diameter_in", "[plan]"} {
 		if !strings.Contains(stdout, key) {
 			t.Errorf("template lacks %s", key)
 		}

@@ -207,14 +207,7 @@ func TestCureSmallTown(t *testing.T) {
 // the demo's outputs say which mains to upsize to which size, and the
 // re-solved network meets the criteria or names what it cannot).
 func TestCureDemoTown(t *testing.T) {
-	in, err := builtInDemo()
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := analyse(in)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r := demoResult(t)
 	cureCheckRun(t, r)
 	if r.cure.UpsizedLength == 0 {
 		t.Error("the demo town upsizes no main; its outputs must show the loop at work")
