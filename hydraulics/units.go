@@ -25,6 +25,7 @@ const (
 	Millimetre Length = 1e-3
 	Foot       Length = 0.3048
 	Inch       Length = 0.0254
+	Mile       Length = 5280 * Foot // the international mile, 1,609.344 m
 	// USSurveyFoot is 1200/3937 m, the unit of many State Plane layers.
 	USSurveyFoot Length = 1200.0 / 3937.0
 )

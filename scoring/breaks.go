@@ -156,13 +156,9 @@ func breakRate(count float64, length hydraulics.Length, years float64) float64 {
 	return count / (float64(length) * years)
 }
 
-// internationalMile is the international mile, 5,280 ft = 1,609.344 m exactly
-// (DOMAIN.md §3.7).
-const internationalMile = 5280 * hydraulics.Foot
-
 // PerMileYear converts a break rate from breaks per metre per year to
 // breaks per mile per year (× 1,609.344).
-func PerMileYear(perMetreYear float64) float64 { return perMetreYear * float64(internationalMile) }
+func PerMileYear(perMetreYear float64) float64 { return perMetreYear * float64(hydraulics.Mile) }
 
 // PerHundredKmYear converts a break rate from breaks per metre per year to
 // breaks per 100 km per year (× 100,000).

@@ -7,6 +7,8 @@ import (
 	"math"
 	"slices"
 	"strings"
+
+	"headroom/hydraulics"
 )
 
 // Scale turns a measure into a factor score of 1 to 5 (DOMAIN.md §7.1:
@@ -100,7 +102,6 @@ type RiskConfig struct {
 
 // Metres per mile and per foot, for the defaults (exact, DOMAIN.md §3.7).
 const (
-	metresPerMile              = 1609.344
 	metresPerFoot              = 0.3048
 	cubicMetresPerSecondPerGPM = 0.003785411784 / 60
 )
@@ -130,7 +131,7 @@ const (
 //     consequence weights: diameter 0.3, flow 0.3, facility 0.25, road 0.15.
 //   - Priority: risk and performance weighted equally.
 func DefaultRiskConfig() RiskConfig {
-	perMileYear := func(per100mi float64) float64 { return per100mi / 100 / metresPerMile }
+	perMileYear := func(per100mi float64) float64 { return per100mi / 100 / float64(hydraulics.Mile) }
 	inch := 0.0254
 	gpm := cubicMetresPerSecondPerGPM
 	ft := metresPerFoot

@@ -3,6 +3,8 @@ package scoring
 import (
 	"math"
 	"testing"
+
+	"headroom/hydraulics"
 )
 
 // TestScaleEdges: a rising scale steps up at each edge and a falling one
@@ -42,7 +44,7 @@ func TestAssessRiskByHand(t *testing.T) {
 	if err := c.Validate(); err != nil {
 		t.Fatal(err)
 	}
-	p := RiskPipe{Age: 101, Material: "ci", BreakRate: 40.0 / 100 / metresPerMile, C: 62,
+	p := RiskPipe{Age: 101, Material: "ci", BreakRate: 40.0 / 100 / float64(hydraulics.Mile), C: 62,
 		Diameter: 6 * 0.0254, Flow: 300 * cubicMetresPerSecondPerGPM, FacilityDistance: 400 * metresPerFoot,
 		Road: "Local", HasRoad: true, HasBreaks: true}
 	r := AssessRisk(p, c)

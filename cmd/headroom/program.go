@@ -181,7 +181,7 @@ func (c *Config) progRisk() (scoring.RiskConfig, error) {
 		other string
 	}{
 		"age_share": {&rc.AgeShare.Scale, 1, ""}, "c_factor": {&rc.CFactor.Scale, 1, ""},
-		"breaks_per_100mi_yr": {&rc.BreakRate.Scale, 1 / (100 * 1609.344), "breaks_per_100km_yr"},
+		"breaks_per_100mi_yr": {&rc.BreakRate.Scale, 1 / (100 * float64(hydraulics.Mile)), "breaks_per_100km_yr"},
 		"breaks_per_100km_yr": {&rc.BreakRate.Scale, 1 / 100e3, "breaks_per_100mi_yr"},
 		"diameter_in":         {&rc.Diameter.Scale, in, "diameter_mm"}, "diameter_mm": {&rc.Diameter.Scale, mm, "diameter_in"},
 		"flow_gpm": {&rc.Flow.Scale, gpm, "flow_lps"}, "flow_lps": {&rc.Flow.Scale, lps, "flow_gpm"},
@@ -400,7 +400,7 @@ func progTemplate(c *Config) string {
 		edges("flow_lps", rc.Flow.Scale, lps, "flow carried at peak hour")
 		edges("facility_m", rc.Facility.Scale, 1, "falling: distance to the nearest critical facility")
 	} else {
-		edges("breaks_per_100mi_yr", rc.BreakRate.Scale, 1/(100*1609.344), "breaks per 100 miles per year in the record")
+		edges("breaks_per_100mi_yr", rc.BreakRate.Scale, 1/(100*float64(hydraulics.Mile)), "breaks per 100 miles per year in the record")
 		edges("diameter_in", rc.Diameter.Scale, in, "nominal diameter")
 		edges("flow_gpm", rc.Flow.Scale, gpm, "flow carried at peak hour")
 		edges("facility_ft", rc.Facility.Scale, ft, "falling: distance to the nearest critical facility")

@@ -48,9 +48,9 @@ func (r *result) progRateSuffix() string {
 // progRate converts breaks per metre per year to the output unit.
 func (r *result) progRate(perMetreYear float64) float64 {
 	if r.cfg.system() == hydraulics.SI {
-		return perMetreYear * 100e3
+		return scoring.PerHundredKmYear(perMetreYear)
 	}
-	return perMetreYear * 1609.344
+	return scoring.PerMileYear(perMetreYear)
 }
 
 // progPipeValues adds input pipe i's program values to v.
@@ -87,8 +87,7 @@ func (r *result) progProjectLayer() *gis.Layer {
 		return nil
 	}
 	s := r.cfg.system()
-	l, ls := s.LengthSuffix(), s.LengthLabel()
-	_ = ls
+	l := s.LengthSuffix()
 	layer := &gis.Layer{Name: "projects", Columns: []gis.Column{
 		{Name: "project_id", Kind: gis.String},
 		{Name: "plan_year", Kind: gis.Integer},
@@ -376,8 +375,6 @@ func progDollars(x float64) string {
 	}
 	return b.String()
 }
-
-var _ = scoring.MeetsCriteria
 
 // progRateLabel is the break-rate unit in words.
 func progRateLabel(s hydraulics.System) string {

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 
 	"headroom/gis"
 	"headroom/hydraulics"
@@ -214,7 +215,7 @@ func progCohortOf(cohorts []scoring.Cohort, p gis.Pipe) *scoring.Cohort {
 		decade = p.InstallYear / 10 * 10
 	}
 	for k := range cohorts {
-		if cohorts[k].Material == p.Material && cohorts[k].Decade == decade {
+		if strings.EqualFold(cohorts[k].Material, strings.TrimSpace(p.Material)) && cohorts[k].Decade == decade { // cohorts match materials in any case
 			return &cohorts[k]
 		}
 	}
