@@ -27,6 +27,9 @@ type FireFlowOptions struct {
 	// Workers is the number of hydrants searched in parallel, each by its
 	// own clone of the Solver. Zero means runtime.GOMAXPROCS(0).
 	Workers int
+	// Searched, when not nil, is called once after each hydrant's search,
+	// from the worker that did it: it must be safe for concurrent use.
+	Searched func()
 }
 
 // FireFlowResult is the available fire flow at one hydrant.
@@ -158,6 +161,9 @@ func FireFlow(s *Solver, demand []Flow, base *Solution, hydrants []int, opt Fire
 					return
 				}
 				results[k] = f.run(hydrants[k])
+				if o.Searched != nil {
+					o.Searched()
+				}
 			}
 		}()
 	}

@@ -2,6 +2,7 @@ package hydraulics
 
 import (
 	"math"
+	"sync/atomic"
 	"testing"
 )
 
@@ -188,9 +189,15 @@ func TestFireFlowEdgeCases(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		res := FireFlow(s, nil, nil, []int{0, 1}, FireFlowOptions{})
+		var searched atomic.Int64
+		res := FireFlow(s, nil, nil, []int{0, 1}, FireFlowOptions{Workers: 2, Searched: func() { searched.Add(1) }})
 		if res[0].Err == nil || res[1].Err != nil || !(res[1].Available > 0) {
 			t.Errorf("got %+v, want an error for node 0 and a result for node 1", res)
+		}
+		// Searched reports each hydrant once, failed ones included (it
+		// drives the command's progress count).
+		if n := searched.Load(); n != 2 {
+			t.Errorf("Searched called %d times for 2 hydrants", n)
 		}
 	})
 }

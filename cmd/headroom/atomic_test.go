@@ -117,9 +117,10 @@ func TestKilledRunLeavesPreviousOutputs(t *testing.T) {
 	}
 	before, folders := atomicSnapshot(t, out)
 	// ranked.csv, problems.csv, c_calibration.csv, projects.csv, plan.csv,
-	// and pipes, nodes, hydrants and projects as GeoJSON and GeoPackage
-	if len(before) != 13 || len(folders) != 0 {
-		t.Fatalf("first run wrote %d files and %d folders, want 13 files and no folder", len(before), len(folders))
+	// pipes, nodes, hydrants and projects as GeoJSON and GeoPackage, and
+	// ranked.xlsx, report.html and manifest.json
+	if len(before) != 16 || len(folders) != 0 {
+		t.Fatalf("first run wrote %d files and %d folders, want 16 files and no folder", len(before), len(folders))
 	}
 
 	var stderr bytes.Buffer
@@ -460,7 +461,8 @@ func TestShapefileOutputsAllMoved(t *testing.T) {
 			want = append(want, l+part)
 		}
 	}
-	want = append(want, "ranked.csv", "fields.csv", "c_calibration.csv", "problems.csv", "projects.csv", "plan.csv")
+	want = append(want, "ranked.csv", "fields.csv", "c_calibration.csv", "problems.csv", "projects.csv", "plan.csv",
+		"ranked.xlsx", "report.html", "manifest.json")
 	for _, f := range want {
 		if _, ok := files[f]; !ok {
 			t.Errorf("%s not in --out", f)

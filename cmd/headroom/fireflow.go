@@ -121,8 +121,11 @@ func (r *result) fireFlow() error {
 			nodes, which = append(nodes, h.Node), append(which, k)
 		}
 	}
-	opt := hydraulics.FireFlowOptions{Residual: hydraulics.Pressure(cfg.si(cfg.fireResidual())), Zone: r.nodeZones()}
+	sweep := r.progress.begin("fire-flow sweep", "hydrants", len(nodes))
+	opt := hydraulics.FireFlowOptions{Residual: hydraulics.Pressure(cfg.si(cfg.fireResidual())), Zone: r.nodeZones(),
+		Searched: func() { sweep.add(1) }}
 	results := hydraulics.FireFlow(solver, nil, r.ctlFireBase(), nodes, opt)
+	sweep.end("")
 	for k, res := range results {
 		h := &r.hydrants[which[k]]
 		if res.Err != nil {

@@ -5,7 +5,7 @@
 //
 // Usage:
 //
-//	headroom run  [--config FILE] [--out DIR]   run a config, or the built-in demo town
+//	headroom run  [--config FILE] [--out DIR] [--quiet]  run a config, or the built-in demo town
 //	headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and config
 //	headroom init                               print a commented config template
 //	headroom inspect [--crs EPSG:N] LAYER...    describe layers before writing a config
@@ -86,14 +86,17 @@ func usage(w io.Writer) {
 	fmt.Fprint(w, `headroom ranks water mains for replacement and upsizing from GIS layers.
 
 Commands:
-  headroom run  [--config FILE] [--out DIR]       run a config (default: the built-in demo town)
+  headroom run  [--config FILE] [--out DIR] [--quiet]
+                                                  run a config (default: the built-in demo town);
+                                                  progress goes to stderr unless --quiet
   headroom demo --out DIR [--pipes N] [--seed S]  write the demo town's layers and a config that runs them
   headroom init                                   print a commented config template with every key
   headroom inspect [--crs EPSG:N] [--table T] LAYER...
                                                   describe layers (format, coordinate system, fields, topology)
 
-Outputs (in --out, default headroom-out): ranked.csv, problems.csv, and the pipe and node layers
-as GeoJSON and GeoPackage (and shapefile when output.formats asks for it).
+Outputs (in --out, default headroom-out): report.html (the evidence report), ranked.csv and
+ranked.xlsx, projects.csv, plan.csv, problems.csv, the pipe, node, hydrant and project layers as
+GeoJSON and GeoPackage (and shapefile when output.formats asks for it), and manifest.json.
 Results are planning-level screening; see the cautions in the run summary and the README.
 `)
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"cmp"
 	"fmt"
+	"io"
 	"math"
 	"path/filepath"
 	"slices"
@@ -12,6 +13,7 @@ import (
 
 	"headroom/gis"
 	"headroom/hydraulics"
+	"headroom/report"
 )
 
 // writeOptions are the run's choices about where outputs may go.
@@ -93,6 +95,16 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
+	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems)
+	doc := r.reportDocument(pipes, hydrants)
+	outs = append(outs,
+		output{"ranked.xlsx", func(p string) error {
+			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteXLSX(w, book) })
+		}},
+		output{"report.html", func(p string) error {
+			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteHTML(w, doc) })
+		}})
+	outs = append(outs, r.manifestOutput(slices.Clone(outs)))
 	for _, o := range outs {
 		for _, f := range producedFiles(o.name) {
 			if path := filepath.Join(dir, f); r.isInput(path) {
@@ -103,7 +115,19 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	if err := prepareOutDir(dir); err != nil {
 		return nil, err
 	}
-	return commitOutputs(dir, outs)
+	writing := r.progress.begin("writing", "files", len(outs))
+	for k := range outs {
+		write := outs[k].write
+		outs[k].write = func(p string) error {
+			defer writing.add(1)
+			return write(p)
+		}
+	}
+	written, err := commitOutputs(dir, outs)
+	if err == nil {
+		writing.end("into " + dir)
+	}
+	return written, err
 }
 
 // projected returns l with its lon/lat geometry in the pipe layer's
@@ -175,6 +199,9 @@ func fieldsLayer(layers []*gis.Layer, short [][]gis.ShapefileField) *gis.Layer {
 var columnUnits = []struct{ suffix, unit string }{
 	{"_ft_per_kft", "feet of head loss per 1,000 ft of pipe"},
 	{"_m_per_km", "metres of head loss per km of pipe"},
+	{"_per_mi_yr", "breaks per mile per year"}, {"_per_100km_yr", "breaks per 100 km per year"},
+	{"_per_kusd", "per US$1,000"}, {"_priority_ft", "priority × feet"}, {"_priority_m", "priority × metres"},
+	{"_usd", "US dollars"},
 	{"_gpm", "US gallons per minute"}, {"_lps", "litres per second"},
 	{"_fps", "feet per second"}, {"_mps", "metres per second"},
 	{"_psi", "pounds per square inch"}, {"_kpa", "kilopascals"},

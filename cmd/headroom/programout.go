@@ -356,25 +356,7 @@ func progMileOrKmLabel(s hydraulics.System) string {
 }
 
 // progDollars writes whole dollars with thousands separators.
-func progDollars(x float64) string {
-	n := int64(math.Round(x))
-	neg := n < 0
-	if neg {
-		n = -n
-	}
-	digits := fmt.Sprint(n)
-	var b strings.Builder
-	for k, c := range digits {
-		if k > 0 && (len(digits)-k)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
-}
+func progDollars(x float64) string { return thousands(math.Round(x), 0) }
 
 // progRateLabel is the break-rate unit in words.
 func progRateLabel(s hydraulics.System) string {

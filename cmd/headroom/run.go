@@ -24,6 +24,7 @@ func runCommand(args []string, stdout, stderr io.Writer) error {
 	outDir := fs.String("out", "headroom-out", "folder the results are written to")
 	crsName := fs.String("crs", "", "coordinate system of layers that declare none and have no crs key, e.g. EPSG:2229")
 	shareFolder := fs.Bool("allow-input-folder", false, "allow --out to be a folder that holds an input layer or the config")
+	quiet := fs.Bool("quiet", false, "print no progress on stderr (errors and the summary still print)")
 	if err := fs.Parse(args); err != nil {
 		return usageError{err.Error()}
 	}
@@ -39,6 +40,7 @@ func runCommand(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	in.crs = crs
+	in.progress = newProgress(stderr, *quiet)
 	res, err := analyse(in)
 	if err != nil {
 		return err
@@ -63,6 +65,8 @@ type inputs struct {
 	// crs is --crs: the coordinate system of a layer that declares none
 	// and has no crs key of its own.
 	crs *gis.CRS
+	// progress reports the long stages on stderr; nil with --quiet.
+	progress *progress
 }
 
 // flagCRS parses a --crs value; "" means none.
@@ -132,12 +136,15 @@ type result struct {
 	cureHydrant []int
 
 	prog *progResult // the replacement program (program.go)
+
+	progress *progress // the stages on stderr; nil reports nothing
+	in       *inputs   // what was read, for the manifest
 }
 
 // analyse runs the pipeline: read, build, allocate, age, solve, check, score.
 func analyse(in *inputs) (*result, error) {
 	cfg := in.cfg
-	r := &result{cfg: cfg, title: in.title, limits: cfg.limits()}
+	r := &result{cfg: cfg, title: in.title, limits: cfg.limits(), progress: in.progress, in: in}
 	if in.pipes == nil {
 		r.inputPaths = []string{cfg.path(cfg.Pipes.Path), cfg.path(cfg.Sources.Path),
 			cfg.path(cfg.Demands.Path), cfg.path(cfg.Elevations.Path), filepath.Join(cfg.dir, cfg.file)}
@@ -147,14 +154,20 @@ func analyse(in *inputs) (*result, error) {
 			}
 		}
 	}
+	reading := r.progress.begin("reading", "features", 0)
 	if err := readLayers(in, r); err != nil {
 		if errors.Is(err, gis.ErrNoUsable) {
 			return nil, withProblems(err, r.problems, "")
 		}
 		return nil, err
 	}
+	reading.add(len(r.pipes) + len(r.sources) + len(r.demands) + len(r.areas) + len(r.elevations))
+	reading.end(fmt.Sprintf("%d pipes", len(r.pipes)))
+	snapping := r.progress.begin("snapping", "pipes", 0)
 	topo, probs := gis.Snap(r.pipes, hydraulics.Length(cfg.si(cfg.snapTolerance())))
 	r.topo = topo
+	snapping.add(len(r.pipes))
+	snapping.end(fmt.Sprintf("%d nodes", len(topo.Nodes)))
 	r.problems = append(r.problems, probs...)
 
 	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
@@ -194,9 +207,12 @@ func analyse(in *inputs) (*result, error) {
 	if err := readHydrants(in, r); err != nil {
 		return nil, err
 	}
+	solving := r.progress.begin("solving", "scenarios", 0)
 	if err := r.scenariosOrLayerFlows(); err != nil {
 		return nil, err
 	}
+	solving.add(len(r.scenarios))
+	solving.end(fmt.Sprintf("%d nodes, %d pipes", len(r.net.Nodes), len(r.net.Pipes)))
 	if err := r.fireFlow(); err != nil {
 		return nil, err
 	}
@@ -217,12 +233,18 @@ func analyse(in *inputs) (*result, error) {
 	}
 	r.scores = scores
 	r.flagNegativePressure(negative)
+	upsizing := r.progress.begin("upsizing", "", 0)
 	if err := r.cureRun(); err != nil {
 		return nil, err
 	}
+	if r.cure != nil {
+		upsizing.end(fmt.Sprintf("%d trial networks", r.cure.Trials))
+	}
+	program := r.progress.begin("program", "", 0)
 	if err := r.progRun(in); err != nil {
 		return nil, err
 	}
+	program.end("risk, projects, costs and the plan")
 	return r, nil
 }
 

@@ -24,7 +24,7 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata/de
 var (
 	outputFiles = []string{"ranked.csv", "pipes.geojson", "nodes.geojson", "hydrants.geojson", "problems.csv",
 		"projects.csv", "plan.csv", "projects.geojson"}
-	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg", "hydrants.gpkg", "projects.gpkg"}
+	binaryOutputs = []string{"pipes.gpkg", "nodes.gpkg", "hydrants.gpkg", "projects.gpkg", "ranked.xlsx"}
 )
 
 // runHeadroom runs the command in-process and returns its exit code and output.
@@ -47,9 +47,12 @@ func builtInRun(t *testing.T) string {
 	if err != nil {
 		t.Fatal(err)
 	}
-	code, stdout, stderr := runHeadroom(t, "run", "--out", dir)
+	code, stdout, stderr := runHeadroom(t, "run", "--quiet", "--out", dir)
 	if code != exitOK {
 		t.Fatalf("headroom run: exit %d\nstdout:\n%s\nstderr:\n%s", code, stdout, stderr)
+	}
+	if stderr != "" {
+		t.Errorf("--quiet run wrote to stderr:\n%s", stderr)
 	}
 	builtInDir = dir
 	return dir
@@ -82,6 +85,15 @@ func TestBuiltInRunPrintsSummaryAndWritesFourFiles(t *testing.T) {
 		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("%s not written: %v", f, err)
 		}
+	}
+	// Progress: stderr is not a terminal here, so one line per stage.
+	for _, stage := range []string{"reading", "snapping", "solving", "fire-flow sweep", "upsizing", "program", "writing"} {
+		if !strings.Contains(stderr, "headroom: "+stage+" ") {
+			t.Errorf("stderr lacks the %s stage line:\n%s", stage, stderr)
+		}
+	}
+	if strings.Contains(stderr, "\r") {
+		t.Errorf("stderr is not a terminal but holds a bar's carriage return:\n%q", stderr)
 	}
 }
 

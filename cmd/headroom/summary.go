@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"slices"
 	"strings"
 	"text/tabwriter"
@@ -42,7 +43,7 @@ func writeSummary(w io.Writer, r *result, written []string) error {
 		s.UnitHeadLoss(r.limits.MaxSlope), s.UnitHeadLossLabel(), s.Velocity(r.limits.MaxVelocity), s.VelocityLabel(),
 		s.Pressure(r.limits.MinPressure), s.PressureLabel(), r.limits.DesignC)
 	p("Problems found in the input: %d (see problems.csv)\n", len(r.problems))
-	p("Wrote %s\n", strings.Join(written, ", "))
+	p("\nWrote\n%s", writtenTable(written))
 	p("\nCautions\n")
 	for _, c := range cautions {
 		p("  - %s\n", c)
@@ -100,14 +101,20 @@ func (r *result) summariseSolve(p func(string, ...any)) {
 	} else {
 		p("Scenarios (Global Gradient Algorithm; the criteria and scores read peak hour)\n")
 	}
-	for _, sc := range scenarios {
-		o := sc.sol
-		lo, hi := r.pressureRange(o)
-		p("  %-12s %.2f × average day: %d iterations, relative flow change %.1e, largest head-balance residual %.1e %s;\n",
-			sc.name, sc.factor, o.Iterations, o.RelativeFlowChange, s.Head(o.MaxHeadResidual), s.LengthLabel())
-		p("  %-12s supply %.2f %s = demand %.2f %s (largest node imbalance %.1e %s); pressure %.1f to %.1f %s\n", "",
-			s.Flow(o.Supply), s.FlowLabel(), s.Flow(o.Demand), s.FlowLabel(), s.Flow(o.MaxContinuityResidual), s.FlowLabel(),
-			lo, hi, s.PressureLabel())
+	if len(scenarios) > 0 {
+		var t strings.Builder
+		tw := tabwriter.NewWriter(&t, 0, 0, 2, ' ', 0)
+		q, h := s.FlowLabel(), s.LengthLabel()
+		fmt.Fprintf(tw, "  scenario\t× average day\titerations\trelative flow change\thead residual %s\tsupply %s\t= demand %s\tnode imbalance %s\tpressure %s\n",
+			h, q, q, q, s.PressureLabel())
+		for _, sc := range scenarios {
+			o := sc.sol
+			lo, hi := r.pressureRange(o)
+			fmt.Fprintf(tw, "  %s\t%.2f\t%d\t%.1e\t%.1e\t%.2f\t%.2f\t%.1e\t%.1f to %.1f\n", sc.name, sc.factor, o.Iterations,
+				o.RelativeFlowChange, s.Head(o.MaxHeadResidual), s.Flow(o.Supply), s.Flow(o.Demand), s.Flow(o.MaxContinuityResidual), lo, hi)
+		}
+		tw.Flush()
+		p("%s", t.String())
 	}
 	if len(sol.Unsupplied) > 0 {
 		p("  %d nodes are in parts of the network no source reaches (see problems.csv)\n", len(sol.Unsupplied))
@@ -207,4 +214,22 @@ func (r *result) summariseFireFlow(p func(string, ...any)) {
 		p("%s%s %.0f of %.0f %s", sep, h.ID, s.Flow(h.res.Available), s.Flow(h.needed), s.FlowLabel())
 	}
 	p("\n\n")
+}
+
+// writtenTable lists the files written with their sizes, one per line.
+func writtenTable(written []string) string {
+	var b strings.Builder
+	tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
+	for _, path := range written {
+		size := "—"
+		if st, err := os.Stat(path); err == nil {
+			size = thousands(float64(st.Size()), 0) + " B"
+			if st.Size() >= 1024 {
+				size = thousands(float64(st.Size())/1024, 0) + " KiB"
+			}
+		}
+		fmt.Fprintf(tw, "  %s\t%10s\n", path, size)
+	}
+	tw.Flush()
+	return b.String()
 }

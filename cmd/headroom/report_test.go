@@ -1,0 +1,269 @@
+package main
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+
+	"github.com/xuri/excelize/v2"
+
+	"headroom/report"
+	"headroom/report/reportcheck"
+)
+
+// TestReportEquationsReproduceSolver: the Hazen-Williams figures printed on
+// each evidence sheet, computed from the published per-1,000-ft form with
+// the handbook constant 148.07 (DOMAIN.md §1.3) and the numbers shown,
+// reproduce the solver's own unit head loss and capacity for that main.
+// The substituted text is parsed back, so what a reader would recompute
+// from the page is what is checked.
+func TestReportEquationsReproduceSolver(t *testing.T) {
+	r := demoResult(t)
+	sheets := r.reportSheets()
+	if len(sheets) != len(r.prog.projects) {
+		t.Fatalf("%d sheets for %d projects", len(sheets), len(r.prog.projects))
+	}
+	num := regexp.MustCompile(`[0-9]+(\.[0-9]+)?`)
+	checked := 0
+	for _, sh := range sheets {
+		var p progProject
+		for _, pr := range r.prog.projects {
+			if pr.id == sh.ID {
+				p = pr
+			}
+		}
+		j, i, ok := r.sheetGoverning(p.segments)
+		if !ok {
+			continue
+		}
+		if len(sh.Equations) != 3 {
+			t.Fatalf("%s: %d equations", sh.ID, len(sh.Equations))
+		}
+		// "h₁₀₀₀ = (148.07 × Q / (C × d^2.63))^1.852": the numbers in order are
+		// 1000 (from the subscript), 148.07, Q, C, d, 2.63, 1.852.
+		f := num.FindAllString(strings.ReplaceAll(sh.Equations[0].Substituted, "h₁₀₀₀", ""), -1)
+		if len(f) != 6 {
+			t.Fatalf("%s: substituted head loss %q", sh.ID, sh.Equations[0].Substituted)
+		}
+		k, q, c, d := atof(t, f[0]), atof(t, f[1]), atof(t, f[2]), atof(t, f[3])
+		h := math.Pow(k*q/(c*math.Pow(d, 2.63)), 1.852)
+		want := r.checks[j].Slope * 1000
+		// The page rounds Q to 0.1 gpm, C to 0.1 and d to 0.001 in, which
+		// moves h by well under 0.3 %.
+		if math.Abs(h-want) > 0.003*want+0.01 {
+			t.Errorf("%s (%s): the page's figures give %.3f ft/kft, the solver %.3f", sh.ID, r.pipes[i].ID, h, want)
+		}
+		capWant := r.checks[j].Capacity.GPM()
+		capQ := c * math.Pow(d, 2.63) * math.Pow(1000*r.limits.MaxSlope, 0.54) / 148.07
+		if math.Abs(capQ-capWant) > 0.003*capWant+0.1 {
+			t.Errorf("%s: the page's capacity %.1f gpm, the solver's %.1f", sh.ID, capQ, capWant)
+		}
+		checked++
+	}
+	if checked == 0 {
+		t.Fatal("no sheet had a scored main")
+	}
+}
+
+func atof(t *testing.T, s string) float64 {
+	t.Helper()
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return v
+}
+
+// TestRankedXLSXMatchesCSV: ranked.xlsx, read back with excelize, holds the
+// same tables as ranked.csv, projects.csv, plan.csv and problems.csv:
+// the same headers, a units row, and every cell the same value (numbers to
+// the CSV's rounding, text exactly).
+func TestRankedXLSXMatchesCSV(t *testing.T) {
+	dir := builtInRun(t)
+	f, err := excelize.OpenFile(filepath.Join(dir, "ranked.xlsx"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	sheets := map[string]string{"segments": "ranked.csv", "projects": "projects.csv", "plan": "plan.csv", "problems": "problems.csv"}
+	if got := f.GetSheetList(); strings.Join(got, ",") != "segments,projects,plan,problems" {
+		t.Fatalf("sheets %v", got)
+	}
+	for sheet, file := range sheets {
+		csvRows := readCSV(t, filepath.Join(dir, file))
+		rows, err := f.GetRows(sheet, excelize.Options{RawCellValue: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(rows) != len(csvRows)+1 {
+			t.Fatalf("%s: %d rows, %s has %d (+1 units row)", sheet, len(rows), file, len(csvRows))
+		}
+		if strings.Join(rows[0], ",") != strings.Join(csvRows[0], ",") {
+			t.Fatalf("%s header %v, %s %v", sheet, rows[0], file, csvRows[0])
+		}
+		for k, want := range csvRows[1:] {
+			got := rows[k+2]
+			for c, w := range want {
+				g := ""
+				if c < len(got) {
+					g = got[c]
+				}
+				if !sameCell(g, w) {
+					t.Fatalf("%s row %d column %s: xlsx %q, csv %q", sheet, k+1, csvRows[0][c], g, w)
+				}
+			}
+		}
+	}
+	// The units row names the unit of a column that carries one.
+	units, _ := f.GetRows("segments")
+	for c, name := range units[0] {
+		if name == "flow_gpm" && units[1][c] != "US gallons per minute" {
+			t.Errorf("flow_gpm unit %q", units[1][c])
+		}
+	}
+}
+
+// sameCell compares an xlsx raw value with the CSV text: equal text, or
+// numbers equal to the CSV's decimals.
+func sameCell(xlsx, csv string) bool {
+	if xlsx == csv {
+		return true
+	}
+	a, errA := strconv.ParseFloat(xlsx, 64)
+	b, errB := strconv.ParseFloat(csv, 64)
+	if errA != nil || errB != nil {
+		return false
+	}
+	dec := 0
+	if _, frac, ok := strings.Cut(csv, "."); ok {
+		dec = len(frac)
+	}
+	return math.Abs(a-b) <= 0.5*math.Pow(10, -float64(dec))+1e-9*math.Abs(b)
+}
+
+// TestManifestAndRepeatability: two runs of the same inputs write the same
+// bytes in every file, the manifest apart from its timestamp, and the
+// manifest's sizes and SHA-256 (computed here with crypto/sha256, FIPS
+// 180-4) match the files beside it.
+func TestManifestAndRepeatability(t *testing.T) {
+	first := builtInRun(t)
+	second := t.TempDir()
+	if code, _, stderr := runHeadroom(t, "run", "--quiet", "--out", second); code != exitOK {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	entries, err := os.ReadDir(first)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range entries {
+		a, _ := os.ReadFile(filepath.Join(first, e.Name()))
+		b, err := os.ReadFile(filepath.Join(second, e.Name()))
+		if err != nil {
+			t.Fatalf("%s not written by the second run: %v", e.Name(), err)
+		}
+		if e.Name() == "manifest.json" {
+			a, b = withoutCreated(t, a), withoutCreated(t, b)
+		}
+		if !bytes.Equal(a, b) {
+			t.Errorf("%s differs between two runs of the same inputs", e.Name())
+		}
+	}
+	raw, err := os.ReadFile(filepath.Join(first, "manifest.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := report.ReadManifest(bytes.NewReader(raw))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(m.Outputs) != len(entries)-1 {
+		t.Errorf("manifest lists %d outputs, the folder holds %d files besides it", len(m.Outputs), len(entries)-1)
+	}
+	for _, o := range m.Outputs {
+		b, err := os.ReadFile(filepath.Join(first, o.Path))
+		if err != nil {
+			t.Fatalf("manifest names %s: %v", o.Path, err)
+		}
+		sum := sha256.Sum256(b)
+		if hex.EncodeToString(sum[:]) != o.SHA256 || int64(len(b)) != o.Bytes {
+			t.Errorf("%s: manifest %d bytes %s, file %d bytes %x", o.Path, o.Bytes, o.SHA256, len(b), sum)
+		}
+	}
+	if m.Version != version || len(m.Scenarios) != 3 || len(m.Inputs) != 7 || m.Config["units"] != "us" {
+		t.Errorf("manifest: version %q, %d scenarios, %d inputs, units %v", m.Version, len(m.Scenarios), len(m.Inputs), m.Config["units"])
+	}
+	for _, c := range m.Counts {
+		if c.In != c.Used+c.LeftOut {
+			t.Errorf("manifest counts %s: %d in ≠ %d used + %d left out", c.Layer, c.In, c.Used, c.LeftOut)
+		}
+	}
+	for _, sc := range m.Scenarios {
+		if sc.RelativeFlowChange > 1e-6 || math.Abs(sc.Supply-sc.Demand) > 1e-6*sc.Demand {
+			t.Errorf("manifest scenario %s: relative flow change %g, supply %g, demand %g", sc.Name, sc.RelativeFlowChange, sc.Supply, sc.Demand)
+		}
+	}
+}
+
+// withoutCreated is a manifest with its timestamp blanked.
+func withoutCreated(t *testing.T, b []byte) []byte {
+	t.Helper()
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	if _, ok := m["created"]; !ok {
+		t.Fatal("manifest has no created time")
+	}
+	m["created"] = ""
+	out, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+// TestManifestConfigIsTheConfigUsed: the manifest's config, written back as
+// TOML, loads to the config the run used (defaults filled in).
+func TestManifestConfigIsTheConfigUsed(t *testing.T) {
+	r := demoResult(t)
+	m, err := configAsUsed(r.cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ff := m["fire_flow"].(map[string]any)
+	if ff["enabled"] != true {
+		t.Errorf("fire_flow.enabled %v, want the default true", ff["enabled"])
+	}
+	if m["analysis_year"] != int64(r.cfg.AnalysisYear) {
+		t.Errorf("analysis_year %v, want %d", m["analysis_year"], r.cfg.AnalysisYear)
+	}
+	if _, err := json.Marshal(m); err != nil {
+		t.Fatalf("the config does not encode as JSON: %v", err)
+	}
+}
+
+// TestReportOpensInBrowser: the demo run's report.html, opened offline in
+// headless Chromium, draws one path per main with a line geometry, the
+// legend and every chart, requests nothing but itself, shows a main's
+// figures on hover and goes to a project's evidence sheet on click
+// (reportcheck.InBrowser); the screenshots go to $HEADROOM_ARTIFACTS.
+func TestReportOpensInBrowser(t *testing.T) {
+	dir := builtInRun(t)
+	r := demoResult(t)
+	mains := 0
+	for _, p := range r.pipes {
+		if len(mapLines(p.Geometry, mapProjection{cosLat: 1})) > 0 {
+			mains++
+		}
+	}
+	reportcheck.InBrowser(t, filepath.Join(dir, "report.html"), mains,
+		[]string{"chart-scores", "chart-inventory", "chart-cost-risk", "chart-fire-flow"})
+}

@@ -1,0 +1,63 @@
+package main
+
+import (
+	"strings"
+
+	"headroom/gis"
+	"headroom/report"
+)
+
+// rankedWorkbook is ranked.xlsx: the tables of the CSV files, one sheet
+// each, with the same headers and values, a row of units under the header.
+// projects and plan are nil when the run has no replacement program.
+func rankedWorkbook(ranked, projects, plan, problems *gis.Layer) *report.Workbook {
+	wb := &report.Workbook{}
+	for _, t := range []struct {
+		name  string
+		layer *gis.Layer
+	}{{"segments", ranked}, {"projects", projects}, {"plan", plan}, {"problems", problems}} {
+		if t.layer != nil {
+			wb.Sheets = append(wb.Sheets, workSheet(t.name, t.layer))
+		}
+	}
+	return wb
+}
+
+// workSheet turns a layer's table (its geometry dropped) into a sheet.
+func workSheet(name string, l *gis.Layer) report.WorkSheet {
+	ws := report.WorkSheet{Name: name, Columns: make([]report.WorkColumn, len(l.Columns)), Rows: make([][]any, len(l.Rows))}
+	for i, c := range l.Columns {
+		ws.Columns[i] = report.WorkColumn{Name: c.Name, Unit: unitOf(c.Name), Decimals: max(c.Decimals, 0),
+			Integer: c.Kind == gis.Integer, Plain: plainNumber(c.Name)}
+	}
+	for i, row := range l.Rows {
+		ws.Rows[i] = row.Values
+	}
+	return ws
+}
+
+// unitOf is a column's unit in words, from its name: the suffix, or the
+// scale of a score ("" when it carries none).
+func unitOf(name string) string {
+	if u := columnUnit(name); u != "" {
+		return u
+	}
+	switch {
+	case name == "score" || strings.HasPrefix(name, "score_") || strings.HasSuffix(name, "priority") || name == "mean_performance":
+		return "0–100"
+	case strings.HasSuffix(name, "risk"):
+		return "1–25"
+	case name == "likelihood" || name == "consequence":
+		return "1–5"
+	case strings.HasSuffix(name, "year") || name == "year":
+		return "year"
+	}
+	return ""
+}
+
+// plainNumber reports a number column shown without a thousands separator:
+// years, ranks and row numbers.
+func plainNumber(name string) bool {
+	return strings.HasSuffix(name, "year") || strings.HasSuffix(name, "rank") || name == "feature" ||
+		strings.HasSuffix(name, "_node")
+}
