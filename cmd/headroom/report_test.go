@@ -66,6 +66,19 @@ func TestReportEquationsReproduceSolver(t *testing.T) {
 		if math.Abs(capQ-capWant) > 0.003*capWant+0.1 {
 			t.Errorf("%s: the page's capacity %.1f gpm, the solver's %.1f", sh.ID, capQ, capWant)
 		}
+		// The SI form (DOMAIN.md §1.3: h = 10.674·L·Q^1.852/(C^1.852·D^4.870),
+		// Q m³/s, D m) from the same main gives the same slope.
+		si := r.sheetEquationsSI(i, j)
+		g := num.FindAllString(strings.ReplaceAll(si[0].Substituted, "h_km", ""), -1)
+		if len(g) != 8 {
+			t.Fatalf("%s: SI substituted head loss %q", sh.ID, si[0].Substituted)
+		}
+		hSI := atof(t, g[0]) * atof(t, g[1]) * math.Pow(atof(t, g[2]), 1.852) / (math.Pow(atof(t, g[4]), 1.852) * math.Pow(atof(t, g[6]), 4.870))
+		// 10.674 against the solver's exact 10.670 (DOMAIN.md §1.3) and Q to
+		// 1e-5 m³/s: within 0.5 %.
+		if math.Abs(hSI-want) > 0.005*want+0.01 {
+			t.Errorf("%s: the SI figures give %.3f m/km, the solver %.3f", sh.ID, hSI, want)
+		}
 		checked++
 	}
 	if checked == 0 {
@@ -266,4 +279,41 @@ func TestReportOpensInBrowser(t *testing.T) {
 	}
 	reportcheck.InBrowser(t, filepath.Join(dir, "report.html"), mains,
 		[]string{"chart-scores", "chart-inventory", "chart-cost-risk", "chart-fire-flow"})
+}
+
+// TestReportWithoutProgram: with no replacement program the report has one
+// evidence sheet per top-ranked segment, in rank order, coloured by the
+// hydraulic score, and still renders.
+func TestReportWithoutProgram(t *testing.T) {
+	base := demoResult(t)
+	r := *base // a shallow copy: only prog changes, nothing shared is written
+	r.prog = nil
+	d := r.reportDocument(r.pipeLayer(), r.hydrantOutput())
+	if len(d.Sheets) != reportTopSegments {
+		t.Fatalf("%d sheets, want the top %d segments", len(d.Sheets), reportTopSegments)
+	}
+	for k, sh := range d.Sheets {
+		for i, sc := range r.scores {
+			if sc.Rank == k+1 && sh.ID != "segment-"+r.pipes[i].ID {
+				t.Errorf("sheet %d is %s, want rank %d's main %s", k+1, sh.ID, k+1, r.pipes[i].ID)
+			}
+		}
+	}
+	if d.Map.ScaleLabel != "hydraulic score (0–100)" {
+		t.Errorf("map colours %q without a program", d.Map.ScaleLabel)
+	}
+	for _, c := range d.Charts {
+		if c.ID == "chart-cost-risk" {
+			t.Error("a cost chart without projects")
+		}
+	}
+	var b bytes.Buffer
+	if err := report.WriteHTML(&b, d); err != nil {
+		t.Fatal(err)
+	}
+	for _, sh := range d.Sheets {
+		if !strings.Contains(b.String(), `id="`+sh.ID+`"`) {
+			t.Errorf("sheet %s not in the page", sh.ID)
+		}
+	}
 }
