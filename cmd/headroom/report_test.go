@@ -317,3 +317,24 @@ func TestReportWithoutProgram(t *testing.T) {
 		}
 	}
 }
+
+// TestReportWithoutFireFlow: with fire flow off there are no shortfalls to
+// charge (fireCharge is nil); the sheets still list every project and
+// name no hydrant (a 100k-segment run with fire_flow.enabled = false
+// once stopped here).
+func TestReportWithoutFireFlow(t *testing.T) {
+	base := demoResult(t)
+	r := *base // a shallow copy: only fireCharge changes
+	r.fireCharge = nil
+	sheets := r.reportSheets()
+	if len(sheets) != len(r.prog.projects) {
+		t.Fatalf("%d sheets for %d projects", len(sheets), len(r.prog.projects))
+	}
+	for _, sh := range sheets {
+		for _, f := range sh.Failed {
+			if strings.Contains(f, "fire flow of hydrant") {
+				t.Errorf("%s: %q without fire-flow shortfalls", sh.ID, f)
+			}
+		}
+	}
+}
