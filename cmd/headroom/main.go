@@ -38,6 +38,7 @@ func headroomMain(args []string, stdout, stderr io.Writer) int {
 		usage(stderr)
 		return exitUsage
 	}
+	defer startProfiles(stderr)()
 	var err error
 	switch args[0] {
 	case "run":
