@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -335,6 +336,69 @@ func TestReportWithoutFireFlow(t *testing.T) {
 			if strings.Contains(f, "fire flow of hydrant") {
 				t.Errorf("%s: %q without fire-flow shortfalls", sh.ID, f)
 			}
+		}
+	}
+}
+
+// TestReportMapDrawsTheWorstFirst: a network larger than the map's limit is
+// drawn in part, and the part is the mains in projects, then the highest
+// priorities (the map's stated rule, reportmap.go), in layer order. The
+// check recomputes the rule from the pipe layer's own columns.
+func TestReportMapDrawsTheWorstFirst(t *testing.T) {
+	r := demoResult(t)
+	pipes := r.pipeLayer()
+	cols := layerColumns(pipes)
+	inProject := 0
+	for i := range r.pipes {
+		if r.prog.projectOf[i] >= 0 {
+			inProject++
+		}
+	}
+	limit := inProject + 50
+	drawn := r.mapMainsDrawn(pipes, cols, "priority", limit)
+	if len(drawn) != limit || !slices.IsSorted(drawn) {
+		t.Fatalf("drew %d rows (sorted %v), want %d in layer order", len(drawn), slices.IsSorted(drawn), limit)
+	}
+	kept := map[int]bool{}
+	lowestKept := math.Inf(1)
+	for _, i := range drawn {
+		kept[i] = true
+		if r.prog.projectOf[i] < 0 {
+			v, _ := cell(cols, pipes.Rows[i], "priority").(float64)
+			lowestKept = min(lowestKept, v)
+		}
+	}
+	for i := range r.pipes {
+		if r.prog.projectOf[i] >= 0 && !kept[i] {
+			t.Fatalf("main %s is in a project but not drawn", r.pipes[i].ID)
+		}
+		if v, ok := cell(cols, pipes.Rows[i], "priority").(float64); ok && !kept[i] && r.scores[i].Scored && v > lowestKept {
+			t.Fatalf("main %s (priority %g) left out while one of %g is drawn", r.pipes[i].ID, v, lowestKept)
+		}
+	}
+	if all := r.mapMainsDrawn(pipes, cols, "priority", len(pipes.Rows)); len(all) != len(pipes.Rows) {
+		t.Fatalf("at the limit the map drew %d of %d mains", len(all), len(pipes.Rows))
+	}
+	hyd := r.hydrantOutput()
+	hs := mapHydrants(hyd, newMapProjection(pipes), r.cfg.system())
+	few := lowestHydrants(hs, hyd, "available_fire_flow_gpm", 5)
+	var flows []float64
+	hcols := layerColumns(hyd)
+	for _, row := range hyd.Rows {
+		if v, ok := cell(hcols, row, "available_fire_flow_gpm").(float64); ok {
+			flows = append(flows, v)
+		}
+	}
+	slices.Sort(flows)
+	byID := map[string]float64{}
+	for _, row := range hyd.Rows {
+		if v, ok := cell(hcols, row, "available_fire_flow_gpm").(float64); ok {
+			byID[cellText(hyd, hcols, row, "hydrant_id")] = v
+		}
+	}
+	for _, h := range few {
+		if byID[h.ID] > flows[4] {
+			t.Errorf("hydrant %s (%g gpm) drawn, above the fifth lowest %g", h.ID, byID[h.ID], flows[4])
 		}
 	}
 }

@@ -95,7 +95,13 @@ func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
 		UnitsPerLength: 1 / s.Length(1), LengthName: s.LengthLabel(), // map metres per ft (or per m)
 	}
 	tips := r.reportTipColumns()
-	for i, row := range pipes.Rows {
+	drawn := r.mapMainsDrawn(pipes, cols, valueCol, maxMapMains)
+	if len(drawn) < len(pipes.Rows) {
+		m.Caption += fmt.Sprintf(" The map draws %s of the %s mains: those in projects, then the highest %s; every main is in the pipe layers and ranked.csv.",
+			thousands(float64(len(drawn)), 0), thousands(float64(len(pipes.Rows)), 0), valueCol)
+	}
+	for _, i := range drawn {
+		row := pipes.Rows[i]
 		mm := report.MapMain{ID: r.pipes[i].ID, Lines: mapLines(row.Geometry, proj)}
 		if len(mm.Lines) == 0 {
 			continue
@@ -131,8 +137,78 @@ func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
 	if hydrants != nil && r.cfg.fireFlowOn() {
 		m.Classes = nfpaLegend(s)
 		m.Hydrants = mapHydrants(hydrants, proj, s)
+		if n := len(m.Hydrants); n > maxMapHydrants {
+			m.Hydrants = lowestHydrants(m.Hydrants, hydrants, "available_fire_flow_"+s.FlowSuffix(), maxMapHydrants)
+			m.Caption += fmt.Sprintf(" It draws the %s hydrants of lowest available flow of %s; all are in the hydrant layers.", thousands(maxMapHydrants, 0), thousands(float64(n), 0))
+		}
 	}
 	return m
+}
+
+// maxMapMains and maxMapHydrants bound what the report's map draws: a
+// browser stays responsive with some tens of thousands of SVG paths, not
+// with a million (common practice for interactive SVG; the figure is ours).
+// A larger network is drawn in part, and the caption says which part.
+const (
+	maxMapMains    = 25_000
+	maxMapHydrants = 10_000
+)
+
+// mapMainsDrawn returns the pipe rows the map draws, in layer order: all of
+// them up to limit, else the mains in projects first, then the scored ones
+// from the highest valueCol (priority or score) down.
+func (r *result) mapMainsDrawn(pipes *gis.Layer, cols map[string]int, valueCol string, limit int) []int {
+	rows := make([]int, len(pipes.Rows))
+	for i := range rows {
+		rows[i] = i
+	}
+	if len(rows) <= limit {
+		return rows
+	}
+	key := make([]float64, len(rows))
+	for i, row := range pipes.Rows {
+		key[i] = -1
+		if v, ok := cell(cols, row, valueCol).(float64); ok && r.scores[i].Scored {
+			key[i] = v
+		}
+		if r.prog != nil && r.prog.projectOf[i] >= 0 {
+			key[i] += 1000 // above every 0–100 value
+		}
+	}
+	slices.SortStableFunc(rows, func(a, b int) int { return cmp.Compare(key[b], key[a]) })
+	rows = rows[:limit]
+	slices.Sort(rows)
+	return rows
+}
+
+// lowestHydrants keeps the n hydrants of hs (one per point row of l, in
+// order) with the lowest available fire flow (column availCol; untested
+// ones last), in layer order.
+func lowestHydrants(hs []report.MapHydrant, l *gis.Layer, availCol string, n int) []report.MapHydrant {
+	cols := layerColumns(l)
+	var avail []float64
+	for _, row := range l.Rows {
+		if _, ok := row.Geometry.(orb.Point); !ok {
+			continue
+		}
+		v := math.Inf(1)
+		if x, ok := cell(cols, row, availCol).(float64); ok {
+			v = x
+		}
+		avail = append(avail, v)
+	}
+	order := make([]int, len(hs))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(avail[a], avail[b]) })
+	order = order[:n]
+	slices.Sort(order)
+	out := make([]report.MapHydrant, n)
+	for k, i := range order {
+		out[k] = hs[i]
+	}
+	return out
 }
 
 // reportTip is one tooltip line: its label and the pipe layer column.
