@@ -95,7 +95,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
-	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems)
+	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems, maxSheetRows)
 	doc := r.reportDocument(pipes, hydrants)
 	outs = append(outs,
 		output{"ranked.xlsx", func(p string) error {

@@ -402,3 +402,36 @@ func TestReportMapDrawsTheWorstFirst(t *testing.T) {
 		}
 	}
 }
+
+// TestRankedWorkbookTruncates: a table longer than the sheet limit keeps its
+// first rows, the highest-ranked, and the "truncated" sheet names the CSV
+// file that holds them all.
+func TestRankedWorkbookTruncates(t *testing.T) {
+	r := demoResult(t)
+	ranked, problems := r.rankedLayer(r.pipeLayer()), r.problemLayer()
+	limit := 100
+	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems, limit)
+	var names []string
+	for _, ws := range book.Sheets {
+		names = append(names, ws.Name)
+		if len(ws.Rows) > limit {
+			t.Errorf("sheet %s holds %d rows, over the limit %d", ws.Name, len(ws.Rows), limit)
+		}
+	}
+	if got := strings.Join(names, ","); got != "segments,projects,plan,problems,truncated" {
+		t.Fatalf("sheets %s", got)
+	}
+	seg := book.Sheets[0]
+	for k := range limit {
+		if !slices.Equal(seg.Rows[k], ranked.Rows[k].Values) {
+			t.Fatalf("segments row %d is not ranked.csv's row %d", k+1, k+1)
+		}
+	}
+	last := book.Sheets[len(book.Sheets)-1]
+	if len(last.Rows) == 0 || last.Rows[0][0] != "segments" || last.Rows[0][1] != "ranked.csv" || last.Rows[0][2] != len(ranked.Rows) || last.Rows[0][3] != limit {
+		t.Fatalf("truncated sheet %v; want segments, ranked.csv, %d, %d first", last.Rows, len(ranked.Rows), limit)
+	}
+	if whole := rankedWorkbook(ranked, nil, nil, problems, len(ranked.Rows)+len(problems.Rows)); len(whole.Sheets) != 2 {
+		t.Fatalf("under the limit the book has %d sheets, want segments and problems", len(whole.Sheets))
+	}
+}

@@ -7,18 +7,38 @@ import (
 	"headroom/report"
 )
 
+// maxSheetRows is the most data rows ranked.xlsx gives a sheet: a
+// spreadsheet of a million rows is at Excel's limit (1,048,576 rows) and
+// slow to open and to write. A longer table keeps its first rows (the
+// highest-ranked segments) and the "truncated" sheet says so; the CSV files
+// hold every row.
+const maxSheetRows = 100_000
+
 // rankedWorkbook is ranked.xlsx: the tables of the CSV files, one sheet
 // each, with the same headers and values, a row of units under the header.
 // projects and plan are nil when the run has no replacement program.
-func rankedWorkbook(ranked, projects, plan, problems *gis.Layer) *report.Workbook {
+// A table longer than limit rows keeps its first limit, and a last sheet,
+// "truncated", lists each shortened sheet, its CSV file and both counts.
+func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *report.Workbook {
 	wb := &report.Workbook{}
+	var cut [][]any
 	for _, t := range []struct {
-		name  string
-		layer *gis.Layer
-	}{{"segments", ranked}, {"projects", projects}, {"plan", plan}, {"problems", problems}} {
-		if t.layer != nil {
-			wb.Sheets = append(wb.Sheets, workSheet(t.name, t.layer))
+		name, file string
+		layer      *gis.Layer
+	}{{"segments", "ranked.csv", ranked}, {"projects", "projects.csv", projects}, {"plan", "plan.csv", plan}, {"problems", "problems.csv", problems}} {
+		if t.layer == nil {
+			continue
 		}
+		ws := workSheet(t.name, t.layer)
+		if len(ws.Rows) > limit {
+			cut = append(cut, []any{t.name, t.file, len(ws.Rows), limit})
+			ws.Rows = ws.Rows[:limit]
+		}
+		wb.Sheets = append(wb.Sheets, ws)
+	}
+	if cut != nil {
+		wb.Sheets = append(wb.Sheets, report.WorkSheet{Name: "truncated", Rows: cut, Columns: []report.WorkColumn{
+			{Name: "sheet"}, {Name: "csv_file"}, {Name: "rows_in_csv", Integer: true}, {Name: "rows_in_sheet", Integer: true}}})
 	}
 	return wb
 }
