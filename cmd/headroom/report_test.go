@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"unicode/utf16"
 
 	"github.com/xuri/excelize/v2"
 
@@ -433,5 +434,43 @@ func TestRankedWorkbookTruncates(t *testing.T) {
 	}
 	if whole := rankedWorkbook(ranked, nil, nil, problems, len(ranked.Rows)+len(problems.Rows)); len(whole.Sheets) != 2 {
 		t.Fatalf("under the limit the book has %d sheets, want segments and problems", len(whole.Sheets))
+	}
+}
+
+// TestLongCellsFitTheSheet: a text longer than a cell holds (32,767 UTF-16
+// units, Excel's specifications and limits) is cut with a note, so that the
+// workbook is still written (a 1M-pipe plan row's project list ran to
+// 141,263), and the layer the CSV writer shares is left whole.
+func TestLongCellsFitTheSheet(t *testing.T) {
+	long := strings.Repeat("QM-1234,", 5000) + strings.Repeat("💧", 20000) // 40,000 + 40,000 UTF-16 units
+	values := []any{"PLAN-1", long, 3.5}
+	fit := fitCells(values, "plan")
+	if values[1] != long {
+		t.Fatal("fitCells changed the shared row")
+	}
+	cut := fit[1].(string)
+	if n := len(utf16.Encode([]rune(cut))); n > 32767 || n < 32000 {
+		t.Fatalf("cut text is %d UTF-16 units, want just under 32,767", n)
+	}
+	if !strings.HasSuffix(cut, "the plan.csv row holds it all)") || !strings.HasPrefix(long, strings.TrimSuffix(cut, cut[strings.LastIndex(cut, " … "):])) {
+		t.Fatalf("cut text ends %q", cut[len(cut)-80:])
+	}
+	book := &report.Workbook{Sheets: []report.WorkSheet{{Name: "plan",
+		Columns: []report.WorkColumn{{Name: "project_id"}, {Name: "project_ids"}, {Name: "x"}}, Rows: [][]any{fit}}}}
+	var buf bytes.Buffer
+	if err := report.WriteXLSX(&buf, book); err != nil {
+		t.Fatalf("workbook with the cut cell: %v", err)
+	}
+	f, err := excelize.OpenReader(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := f.GetCellValue("plan", "B3")
+	if err != nil || got != cut {
+		t.Fatalf("read back %d chars (err %v), want the %d written", len(got), err, len(cut))
+	}
+	if err := report.WriteXLSX(&bytes.Buffer{}, &report.Workbook{Sheets: []report.WorkSheet{{Name: "plan",
+		Columns: []report.WorkColumn{{Name: "a"}, {Name: "b"}, {Name: "c"}}, Rows: [][]any{values}}}}); err == nil {
+		t.Fatal("the uncut text was accepted: the check above tests nothing")
 	}
 }

@@ -252,11 +252,13 @@ func analyse(in *inputs) (*result, error) {
 // GeoPackage, in any supported coordinate system) or, for the built-in
 // demo, from the collections already in memory; either way the same code
 // maps their fields. Point layers are joined in lon/lat; pipe lengths come
-// from the pipe layer's own coordinates.
+// from the pipe layer's own coordinates. Each layer is opened, mapped and
+// let go before the next is opened, so that only one decoded layer is held
+// at a time (at a million pipes a decoded layer takes a gigabyte or more).
 func readLayers(in *inputs, r *result) error {
 	cfg := in.cfg
 	mem := []*geojson.FeatureCollection{in.pipes, in.sources, in.demands, in.elevations}
-	var layers [4]*gis.Collection
+	read := []func(*gis.Collection) ([]gis.Problem, error){r.readPipes, r.readSources, r.readDemands, r.readElevations}
 	for k, l := range cfg.layers() {
 		c, err := openLayer(in, l, mem[k])
 		if err != nil {
@@ -266,41 +268,53 @@ func readLayers(in *inputs, r *result) error {
 			r.problems = append(r.problems, gis.Problem{File: c.File, Field: "crs", What: c.Note,
 				Action: fmt.Sprintf("set %s.crs to say which coordinate system the layer is in", l.key)})
 		}
-		layers[k] = c
-	}
-	r.pipeLayerCRS = layers[0].CRS
-	keep := func(probs []gis.Problem, err error) error {
+		probs, err := read[k](c)
 		r.problems = append(r.problems, probs...)
-		return err
-	}
-	var probs []gis.Problem
-	var err error
-	r.pipes, probs, err = gis.PipesFromLayer(layers[0], cfg.pipeSchema(), cfg.AnalysisYear)
-	if err := keep(probs, err); err != nil {
-		return err
-	}
-	r.sizeRead(layers[0])
-	r.problems = append(r.problems, r.ageReadLined(layers[0])...)
-	if cfg.layerFlowsOn() {
-		if r.layerFlows, err = r.layerFlowRead(layers[0]); err != nil {
+		if err != nil {
 			return err
 		}
 	}
-	src, dem, elev := layers[1], layers[2], layers[3]
-	r.sources, probs, err = gis.SourcesFromCollection(src.File, src.LonLat(), cfg.sourceSchema())
-	if err := keep(probs, err); err != nil {
-		return err
+	return nil
+}
+
+// readPipes maps the pipe layer: the pipes, their sizes, lining years and,
+// with solver.flows = "from_layer", their flows.
+func (r *result) readPipes(c *gis.Collection) ([]gis.Problem, error) {
+	cfg := r.cfg
+	r.pipeLayerCRS = c.CRS
+	var probs []gis.Problem
+	var err error
+	r.pipes, probs, err = gis.PipesFromLayer(c, cfg.pipeSchema(), cfg.AnalysisYear)
+	if err != nil {
+		return probs, err
 	}
-	if cfg.Demands.Allocation == allocateAreas {
-		r.areas, probs, err = gis.AreaDemandsFromCollection(dem.File, areaLonLat(dem), cfg.demandSchema())
+	r.sizeRead(c)
+	probs = append(probs, r.ageReadLined(c)...)
+	if cfg.layerFlowsOn() {
+		if r.layerFlows, err = r.layerFlowRead(c); err != nil {
+			return probs, err
+		}
+	}
+	return probs, nil
+}
+
+func (r *result) readSources(c *gis.Collection) (probs []gis.Problem, err error) {
+	r.sources, probs, err = gis.SourcesFromCollection(c.File, c.LonLat(), r.cfg.sourceSchema())
+	return probs, err
+}
+
+func (r *result) readDemands(c *gis.Collection) (probs []gis.Problem, err error) {
+	if r.cfg.Demands.Allocation == allocateAreas {
+		r.areas, probs, err = gis.AreaDemandsFromCollection(c.File, areaLonLat(c), r.cfg.demandSchema())
 	} else {
-		r.demands, probs, err = gis.DemandsFromCollection(dem.File, dem.LonLat(), cfg.demandSchema())
+		r.demands, probs, err = gis.DemandsFromCollection(c.File, c.LonLat(), r.cfg.demandSchema())
 	}
-	if err := keep(probs, err); err != nil {
-		return err
-	}
-	r.elevations, probs, err = gis.ElevationsFromCollection(elev.File, elev.LonLat(), cfg.elevationSchema())
-	return keep(probs, err)
+	return probs, err
+}
+
+func (r *result) readElevations(c *gis.Collection) (probs []gis.Problem, err error) {
+	r.elevations, probs, err = gis.ElevationsFromCollection(c.File, c.LonLat(), r.cfg.elevationSchema())
+	return probs, err
 }
 
 // openLayer opens one configured layer, or wraps the built-in collection.

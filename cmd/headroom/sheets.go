@@ -1,7 +1,9 @@
 package main
 
 import (
+	"slices"
 	"strings"
+	"unicode/utf16"
 
 	"headroom/gis"
 	"headroom/report"
@@ -25,7 +27,7 @@ func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *rep
 	for _, t := range []struct {
 		name, file string
 		layer      *gis.Layer
-	}{{"segments", "ranked.csv", ranked}, {"projects", "projects.csv", projects}, {"plan", "plan.csv", plan}, {"problems", "problems.csv", problems}} {
+	}{{"segments", sheetCSV["segments"], ranked}, {"projects", sheetCSV["projects"], projects}, {"plan", sheetCSV["plan"], plan}, {"problems", sheetCSV["problems"], problems}} {
 		if t.layer == nil {
 			continue
 		}
@@ -51,10 +53,50 @@ func workSheet(name string, l *gis.Layer) report.WorkSheet {
 			Integer: c.Kind == gis.Integer, Plain: plainNumber(c.Name)}
 	}
 	for i, row := range l.Rows {
-		ws.Rows[i] = row.Values
+		ws.Rows[i] = fitCells(row.Values, name)
 	}
 	return ws
 }
+
+// maxCellUTF16 is the most text a spreadsheet cell holds, in UTF-16 code
+// units (Excel's specifications and limits: 32,767 characters).
+const maxCellUTF16 = 32767
+
+// fitCells returns values with every text too long for a cell cut short and
+// ended with a note naming the CSV file that holds it whole (a project's
+// list of pipe ids can run to 100,000 characters); values itself is left
+// as it is, since the layer's other writers share it.
+func fitCells(values []any, sheet string) []any {
+	out := values
+	for c, v := range values {
+		s, ok := v.(string)
+		if !ok || len(s) <= maxCellUTF16 { // a UTF-8 byte is at most one UTF-16 unit
+			continue
+		}
+		if &out[0] == &values[0] {
+			out = slices.Clone(values)
+		}
+		out[c] = cutUTF16(s, sheet)
+	}
+	return out
+}
+
+// cutUTF16 shortens s to fit a cell, ending it with a note.
+func cutUTF16(s, sheet string) string {
+	note := " … (cut to fit a spreadsheet cell; the " + sheetCSV[sheet] + " row holds it all)"
+	room := maxCellUTF16 - len(utf16.Encode([]rune(note)))
+	n := 0
+	for i, r := range s {
+		n += utf16.RuneLen(r)
+		if n > room {
+			return s[:i] + note
+		}
+	}
+	return s
+}
+
+// sheetCSV is the CSV file each sheet repeats.
+var sheetCSV = map[string]string{"segments": "ranked.csv", "projects": "projects.csv", "plan": "plan.csv", "problems": "problems.csv"}
 
 // unitOf is a column's unit in words, from its name: the suffix, or the
 // scale of a score ("" when it carries none).
