@@ -111,18 +111,30 @@ func AllocateDemands(t *Topology, demands []Point, fixed []bool, warnDistance hy
 	q := make([]hydraulics.Flow, len(t.Nodes))
 	var probs []Problem
 	isFixed := func(k int) bool { return k < len(fixed) && fixed[k] }
-	for _, p := range demands {
+	// The nearest junction of every demand, in parallel; the sums and the
+	// problems then follow in demand order, as they would one by one.
+	t.ensureIndex()
+	node := make([]int, len(demands))
+	forChunks(len(demands), func(lo, hi int) {
+		for i := lo; i < hi; i++ {
+			node[i] = -1
+			if !demands[i].Usable {
+				continue
+			}
+			t.nearest(demands[i].At, func(n int) bool {
+				if isFixed(n) {
+					return true
+				}
+				node[i] = n
+				return false
+			})
+		}
+	})
+	for i, p := range demands {
 		if !p.Usable {
 			continue
 		}
-		k := -1
-		t.nearest(p.At, func(n int) bool {
-			if isFixed(n) {
-				return true
-			}
-			k = n
-			return false
-		})
+		k := node[i]
 		if k < 0 {
 			probs = append(probs, Problem{File: p.File, Feature: p.Index, ID: p.ID, Field: "geometry",
 				What: "there is no junction node to take the demand", Action: "demand left out; check the pipe layer"})
@@ -178,29 +190,35 @@ func InterpolateElevations(t *Topology, points []Point, k int, power float64) ([
 		return nil, errors.New("gis: no usable elevation point to interpolate node elevations from")
 	}
 	z := make([]hydraulics.Length, len(t.Nodes))
-	for j, node := range t.Nodes {
-		xy := t.proj.xy(node.At)
-		var sw, swz, hitSum float64
-		hits, seen := 0, 0
-		tr.Nearby(rtree.BoxDist[float64, int](xy, xy, nil), func(_, _ [2]float64, i int, _ float64) bool {
-			p := points[i]
-			d := segmentMetres(node.At, p.At)
-			if d <= exactHit {
-				hitSum += p.Value
-				hits++
-			} else {
-				w := math.Pow(d, -power)
-				sw += w
-				swz += w * p.Value
-			}
-			seen++
-			return seen < k
-		})
-		if hits > 0 {
-			z[j] = hydraulics.Length(hitSum / float64(hits))
-		} else {
-			z[j] = hydraulics.Length(swz / sw)
+	forChunks(len(t.Nodes), func(lo, hi int) {
+		for j := lo; j < hi; j++ {
+			z[j] = idwAt(tr, t.Nodes[j].At, t.proj.xy(t.Nodes[j].At), points, k, power)
 		}
-	}
+	})
 	return z, nil
+}
+
+// idwAt is the inverse-distance-weighted mean at node position at (xy in
+// the local projection) of its k nearest points in tr (InterpolateElevations).
+func idwAt(tr *rtree.RTreeG[int], at orb.Point, xy [2]float64, points []Point, k int, power float64) hydraulics.Length {
+	var sw, swz, hitSum float64
+	hits, seen := 0, 0
+	tr.Nearby(rtree.BoxDist[float64, int](xy, xy, nil), func(_, _ [2]float64, i int, _ float64) bool {
+		p := points[i]
+		d := segmentMetres(at, p.At)
+		if d <= exactHit {
+			hitSum += p.Value
+			hits++
+		} else {
+			w := math.Pow(d, -power)
+			sw += w
+			swz += w * p.Value
+		}
+		seen++
+		return seen < k
+	})
+	if hits > 0 {
+		return hydraulics.Length(hitSum / float64(hits))
+	}
+	return hydraulics.Length(swz / sw)
 }

@@ -1,7 +1,10 @@
 package gis
 
 import (
+	"cmp"
 	"math"
+	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 
@@ -157,5 +160,60 @@ func TestHandMadeTopology(t *testing.T) {
 	q, _ := AllocateDemands(topo, []Point{testPoint(1, "m", 90, 0, 1)}, nil, 0)
 	if q[1] != 1 || q[0] != 0 {
 		t.Errorf("q = %v", q)
+	}
+}
+
+// TestJoinsInParallelMatchBruteForce: on a grid large enough that demand
+// allocation and elevation interpolation split into parallel chunks, every
+// demand lands on the junction a brute-force search over all nodes finds
+// (nearest on the ellipsoid, ties to the lower index), and every elevation
+// is Shepard's (1968) weighted mean of the k nearest points found the same
+// way. Run with -race to check the chunks share nothing they write.
+func TestJoinsInParallelMatchBruteForce(t *testing.T) {
+	topo, _ := Snap(gridPipes(40), halfFoot) // 1,681 junctions: two chunks (minChunk)
+	rng := rand.New(rand.NewPCG(7, 7))
+	pts := make([]Point, 3000)
+	for i := range pts {
+		pts[i] = testPoint(i+1, "", 4000*rng.Float64(), 4000*rng.Float64(), 1e-4*rng.Float64())
+	}
+	fixed := make([]bool, len(topo.Nodes))
+	fixed[0] = true
+	q, _ := AllocateDemands(topo, pts, fixed, 0)
+	want := make([]hydraulics.Flow, len(topo.Nodes))
+	for _, p := range pts {
+		best, bestD := -1, math.Inf(1)
+		for k, n := range topo.Nodes {
+			if d := segmentMetres(p.At, n.At); !fixed[k] && d < bestD {
+				best, bestD = k, d
+			}
+		}
+		want[best] += hydraulics.Flow(p.Value)
+	}
+	for k := range want {
+		if math.Abs(float64(q[k]-want[k])) > 1e-12 {
+			t.Fatalf("node %d: demand %g, brute force %g", k, q[k], want[k])
+		}
+	}
+	z, err := InterpolateElevations(topo, pts, 4, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := 0; j < len(topo.Nodes); j += 29 {
+		at := topo.Nodes[j].At
+		d := make([]float64, len(pts))
+		idx := make([]int, len(pts))
+		for i, p := range pts {
+			d[i], idx[i] = segmentMetres(at, p.At), i
+		}
+		slices.SortFunc(idx, func(a, b int) int { return cmp.Compare(d[a], d[b]) })
+		var sw, swz float64
+		for _, i := range idx[:4] {
+			w := math.Pow(d[i], -2)
+			sw += w
+			swz += w * pts[i].Value
+		}
+		if got := float64(z[j]); math.Abs(got-swz/sw) > 1e-9*math.Abs(swz/sw)+1e-15 {
+			t.Fatalf("node %d: elevation %g, brute force %g", j, got, swz/sw)
+		}
 	}
 }
