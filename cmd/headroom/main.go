@@ -18,6 +18,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime/debug"
 )
 
 // Exit codes (README: 0 ok, 1 input, 2 usage, 3 solver).
@@ -29,8 +30,18 @@ const (
 )
 
 func main() {
+	if _, set := os.LookupEnv("GOMEMLIMIT"); !set {
+		debug.SetMemoryLimit(softMemoryLimit)
+	}
 	os.Exit(headroomMain(os.Args[1:], os.Stdout, os.Stderr))
 }
+
+// softMemoryLimit is the heap size past which the garbage collector works
+// harder rather than let the heap double (Go's default between
+// collections): it keeps a million-pipe run near its live heap, under
+// 3 GB of resident memory. The environment variable GOMEMLIMIT overrides
+// it (README, Performance); it is soft, so a larger network still runs.
+const softMemoryLimit = 2 << 30 // bytes (2 GiB)
 
 // headroomMain dispatches a subcommand and returns the process exit code.
 func headroomMain(args []string, stdout, stderr io.Writer) int {
