@@ -1,7 +1,6 @@
 package gis
 
 import (
-	"bufio"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -33,12 +32,11 @@ type rawFeature struct {
 // section ("pipes", "sources", …) named in the error messages.
 func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 	file := filepath.Base(path)
-	f, err := os.Open(path)
+	data, err := os.ReadFile(path)
 	if err != nil {
 		return nil, &FieldError{File: file, Err: fmt.Errorf("cannot read %s: %w; check the config key %s.path", path, err, key)}
 	}
-	defer f.Close()
-	fc, err := decodeCollection(bufio.NewReaderSize(f, 1<<20), file)
+	fc, err := decodeGeoJSON(data, file)
 	if err != nil {
 		var fe *FieldError
 		if errors.As(err, &fe) {
@@ -49,11 +47,23 @@ func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 	return fc, nil
 }
 
-// decodeCollection streams a GeoJSON object from r: a FeatureCollection,
-// whose features are decoded one by one, or a single Feature, returned as a
-// collection of one. Foreign top-level members (such as the old "crs") are
-// kept in ExtraMembers of a collection.
+// decodeCollection reads all of r and decodes it with decodeGeoJSON.
 func decodeCollection(r io.Reader, file string) (*geojson.FeatureCollection, error) {
+	data, err := io.ReadAll(r)
+	if err != nil {
+		return nil, err
+	}
+	return decodeGeoJSON(data, file)
+}
+
+// decodeCollectionStd streams a GeoJSON object from r with encoding/json: a
+// FeatureCollection, whose features are decoded one by one, or a single
+// Feature, returned as a collection of one. Foreign top-level members (such
+// as the old "crs") are kept in ExtraMembers of a collection.
+//
+// It is the reference that the fast scanner (geojson_scan.go) must agree
+// with, and the scanner's fallback for input it does not handle itself.
+func decodeCollectionStd(r io.Reader, file string) (*geojson.FeatureCollection, error) {
 	dec := json.NewDecoder(r)
 	dec.UseNumber()
 	tok, err := dec.Token()
