@@ -7,6 +7,7 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"github.com/paulmach/orb/geojson"
 
@@ -45,27 +46,72 @@ func benchPipeLayer(b *testing.B) string {
 	return benchTown.pipes
 }
 
-// BenchmarkReadGeoJSON reads a generated 100k-segment pipe layer with
-// ReadCollection and reports MB/s (10⁶ bytes of file per second) and
-// features/s.
+// BenchmarkReadGeoJSON reads a generated 100k-segment pipe layer from its
+// file and reports MB/s (10⁶ bytes of file per second) and features/s:
+// "scan" is ReadCollection (the scanner, in parallel runs), "scan-1run" the
+// scanner in one goroutine, "std" the encoding/json decoder it replaced.
 func BenchmarkReadGeoJSON(b *testing.B) {
 	path := benchPipeLayer(b)
 	st, err := os.Stat(path)
 	if err != nil {
 		b.Fatal(err)
 	}
-	b.ReportAllocs()
-	features := 0
-	for b.Loop() {
-		fc, err := ReadCollection(path, "pipes")
-		if err != nil {
-			b.Fatal(err)
-		}
-		features += len(fc.Features)
+	size := st.Size()
+	decoders := []struct {
+		name string
+		read func(path string) (*geojson.FeatureCollection, error)
+	}{
+		{"scan", func(path string) (*geojson.FeatureCollection, error) { return ReadCollection(path, "pipes") }},
+		{"scan-1run", func(path string) (*geojson.FeatureCollection, error) {
+			data, err := os.ReadFile(path)
+			if err != nil {
+				return nil, err
+			}
+			return decodeGeoJSONRuns(data, filepath.Base(path), 1, minRunBytes)
+		}},
+		{"std", readStd},
 	}
-	sec := b.Elapsed().Seconds()
-	b.ReportMetric(float64(st.Size())*float64(b.N)/1e6/sec, "MB/s")
-	b.ReportMetric(float64(features)/sec, "features/s")
+	for _, d := range decoders {
+		b.Run(d.name, func(b *testing.B) {
+			b.ReportAllocs()
+			features := 0
+			cpu0 := processCPU()
+			for b.Loop() {
+				fc, err := d.read(path)
+				if err != nil {
+					b.Fatal(err)
+				}
+				features += len(fc.Features)
+			}
+			sec := b.Elapsed().Seconds()
+			reportCPU(b, processCPU()-cpu0, size)
+			b.ReportMetric(float64(size)*float64(b.N)/1e6/sec, "MB/s")
+			b.ReportMetric(float64(features)/sec, "features/s")
+			b.ReportMetric(float64(features)/float64(b.N), "features/op")
+		})
+	}
+}
+
+// reportCPU reports the CPU time per iteration and the megabytes read per
+// CPU second (cpu-MB/s: all goroutines and the garbage collector counted,
+// so for one goroutine it is about the single-core rate on an idle machine).
+func reportCPU(b *testing.B, cpu time.Duration, size int64) {
+	if cpu <= 0 {
+		return
+	}
+	b.ReportMetric(cpu.Seconds()*1e3/float64(b.N), "cpu-ms/op")
+	b.ReportMetric(float64(size)*float64(b.N)/1e6/cpu.Seconds(), "cpu-MB/s")
+}
+
+// readStd reads a file with the encoding/json decoder, as ReadCollection
+// did before the scanner.
+func readStd(path string) (*geojson.FeatureCollection, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	return decodeCollectionStd(bufio.NewReaderSize(f, 1<<20), filepath.Base(path))
 }
 
 // BenchmarkReadGeoJSONFiles reads the GeoJSON files listed in
@@ -92,19 +138,13 @@ func BenchmarkReadGeoJSONFiles(b *testing.B) {
 		read func(path string) (*geojson.FeatureCollection, error)
 	}{
 		{"scan", func(path string) (*geojson.FeatureCollection, error) { return ReadCollection(path, "bench") }},
-		{"std", func(path string) (*geojson.FeatureCollection, error) {
-			f, err := os.Open(path)
-			if err != nil {
-				return nil, err
-			}
-			defer f.Close()
-			return decodeCollectionStd(bufio.NewReaderSize(f, 1<<20), filepath.Base(path))
-		}},
+		{"std", readStd},
 	}
 	for _, d := range decoders {
 		b.Run(d.name, func(b *testing.B) {
 			b.ReportAllocs()
 			features := 0
+			cpu0 := processCPU()
 			for b.Loop() {
 				for _, p := range paths {
 					fc, err := d.read(p)
@@ -115,6 +155,7 @@ func BenchmarkReadGeoJSONFiles(b *testing.B) {
 				}
 			}
 			sec := b.Elapsed().Seconds()
+			reportCPU(b, processCPU()-cpu0, size)
 			b.ReportMetric(float64(size)*float64(b.N)/1e6/sec, "MB/s")
 			b.ReportMetric(float64(features)/sec, "features/s")
 		})

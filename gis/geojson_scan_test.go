@@ -139,6 +139,10 @@ var scanCases = []string{
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"MultiPolygon","coordinates":[]}}]}`,
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"GeometryCollection","geometries":[{"type":"Point","coordinates":[1,2]}]}}]}`,
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1,2],"geometries":[]}}]}`,
+	// orb v0.14.0 panics on these two unless decodeCollectionStd stops them first.
+	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"GeometryCollection","geometries":[null]}}]}`,
+	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1,2],"geometries":[{"type":"GeometryCollection","geometries":[{"type":"Point","coordinates":[1,2]},null]}]}}]}`,
+	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1,2],"geometries":[null]}}]}`,
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Circle","coordinates":[1,2]}}]}`,
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"TYPE":"Point","Coordinates":[1,2]}}]}`,
 	`{"type":"FeatureCollection","features":[{"type":"Feature","geometry":{"type":"Point","coordinates":[1,2],"bbox":[1,2,1,2]}}]}`,
@@ -318,5 +322,33 @@ func TestGeoJSONScanRunsWrongGuesses(t *testing.T) {
 	sameResult(t, "wrong guesses and an error", got, gotErr, want, wantErr)
 	if wantErr == nil || !strings.Contains(wantErr.Error(), "feature 251") {
 		t.Errorf("reference error %v, want one at feature 251", wantErr)
+	}
+}
+
+// A GeometryCollection with a null member is an error naming the feature
+// and the geometry field, not a panic inside orb.
+func TestGeometryCollectionNullIsAnError(t *testing.T) {
+	text := `{"type":"FeatureCollection","features":[{"type":"Feature","id":"G1","geometry":{"type":"GeometryCollection","geometries":[null]}}]}`
+	_, err := decodeCollection(strings.NewReader(text), "g.geojson")
+	want := `g.geojson: feature 1 (id "G1"): field "geometry": not a GeoJSON geometry: a GeometryCollection holds a null geometry`
+	if err == nil || err.Error() != want {
+		t.Errorf("err = %v, want %s", err, want)
+	}
+}
+
+// A path that opens but cannot be read (a directory) is "not a GeoJSON
+// file", with the read error, as it was when encoding/json read the file.
+func TestReadCollectionDirectory(t *testing.T) {
+	dir := t.TempDir()
+	_, err := ReadCollection(dir, "pipes")
+	f, openErr := os.Open(dir)
+	if openErr != nil {
+		t.Fatal(openErr)
+	}
+	defer f.Close()
+	_, stdErr := decodeCollectionStd(f, filepath.Base(dir))
+	want := filepath.Base(dir) + ": not a GeoJSON file (" + stdErr.Error() + "); check the config key pipes.path"
+	if err == nil || err.Error() != want {
+		t.Errorf("err = %v, want %s", err, want)
 	}
 }
