@@ -225,6 +225,9 @@ func (raw rawFeature) feature(file string, index int) (*geojson.Feature, error) 
 // raw, at any depth, has null among its "geometries": orb v0.14.0's decoder
 // dereferences such a member and panics.
 func nullInCollection(raw []byte) bool {
+	if !bytes.Contains(raw, []byte("null")) {
+		return false
+	}
 	var g struct {
 		Type       string            `json:"type"`
 		Geometries []json.RawMessage `json:"geometries"`
