@@ -57,7 +57,8 @@ type scanner struct {
 	feats     []geojson.Feature // slab the next features are taken from
 	pts       []orb.Point       // slab of coordinates; the current line starts at lineStart
 	lineStart int
-	propHint  int // property count of the last feature: the next map's size hint
+	propHint  int      // property count of the last feature: the next map's size hint
+	propNames []string // the last feature's property names in order: the likely next ones
 
 	keys internTable[string] // property names
 	strs internTable[any]    // boxed short string values
@@ -515,6 +516,7 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 	}
 	s.pos++
 	props := make(geojson.Properties, s.propHint)
+	names := s.propNames[:0]
 	for first := true; ; first = false {
 		if !s.skipSpace() {
 			return nil, false
@@ -529,7 +531,9 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 			return nil, false
 		}
 		var name string
-		if plain {
+		if k := len(names); plain && k < len(s.propNames) && s.propNames[k] == string(body) {
+			name = s.propNames[k]
+		} else if plain {
 			name = s.keys.get(body, plainString)
 		} else if name, ok = decodeJSONString(s.data[start:s.pos]); !ok {
 			return nil, false
@@ -546,6 +550,7 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 			return nil, false
 		}
 		props[name] = v
+		names = append(names, name)
 		if !s.skipSpace() {
 			return nil, false
 		}
@@ -558,7 +563,7 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 			return nil, false
 		}
 	}
-	s.propHint = len(props)
+	s.propHint, s.propNames = len(props), names
 	return props, true
 }
 
