@@ -1,7 +1,7 @@
 package gis
 
 import (
-	"bufio"
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -31,6 +31,10 @@ type rawFeature struct {
 // path. Numbers in ids and properties are kept as json.Number, so an id 1
 // reads back as "1" and 9007199254740993 stays exact. key is the config
 // section ("pipes", "sources", …) named in the error messages.
+//
+// The file is read whole into memory and decoded by the scanner of
+// geojson_scan.go (decodeGeoJSON), which gives what decodeCollectionStd
+// gives.
 func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 	file := filepath.Base(path)
 	f, err := os.Open(path)
@@ -38,22 +42,47 @@ func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 		return nil, &FieldError{File: file, Err: fmt.Errorf("cannot read %s: %w; check the config key %s.path", path, err, key)}
 	}
 	defer f.Close()
-	fc, err := decodeCollection(bufio.NewReaderSize(f, 1<<20), file)
-	if err != nil {
-		var fe *FieldError
-		if errors.As(err, &fe) {
-			return nil, err
+	data, err := readAllFile(f)
+	if err == nil {
+		var fc *geojson.FeatureCollection
+		if fc, err = decodeGeoJSON(data, file); err == nil {
+			return fc, nil
 		}
-		return nil, &FieldError{File: file, Err: fmt.Errorf("not a GeoJSON file (%w); check the config key %s.path", err, key)}
 	}
-	return fc, nil
+	var fe *FieldError
+	if errors.As(err, &fe) {
+		return nil, err
+	}
+	return nil, &FieldError{File: file, Err: fmt.Errorf("not a GeoJSON file (%w); check the config key %s.path", err, key)}
 }
 
-// decodeCollection streams a GeoJSON object from r: a FeatureCollection,
-// whose features are decoded one by one, or a single Feature, returned as a
-// collection of one. Foreign top-level members (such as the old "crs") are
-// kept in ExtraMembers of a collection.
+// readAllFile reads the rest of f into one buffer sized from its length.
+func readAllFile(f *os.File) ([]byte, error) {
+	var buf bytes.Buffer
+	if st, err := f.Stat(); err == nil && st.Size() > 0 && int64(int(st.Size())) == st.Size() {
+		buf.Grow(int(st.Size()) + bytes.MinRead)
+	}
+	_, err := buf.ReadFrom(f)
+	return buf.Bytes(), err
+}
+
+// decodeCollection reads all of r and decodes it with decodeGeoJSON.
 func decodeCollection(r io.Reader, file string) (*geojson.FeatureCollection, error) {
+	data, err := io.ReadAll(r)
+	if err != nil {
+		return nil, err
+	}
+	return decodeGeoJSON(data, file)
+}
+
+// decodeCollectionStd streams a GeoJSON object from r with encoding/json: a
+// FeatureCollection, whose features are decoded one by one, or a single
+// Feature, returned as a collection of one. Foreign top-level members (such
+// as the old "crs") are kept in ExtraMembers of a collection.
+//
+// It is the reference that the fast scanner (geojson_scan.go) must agree
+// with, and the scanner's fallback for input it does not handle itself.
+func decodeCollectionStd(r io.Reader, file string) (*geojson.FeatureCollection, error) {
 	dec := json.NewDecoder(r)
 	dec.UseNumber()
 	tok, err := dec.Token()
@@ -178,6 +207,10 @@ func (raw rawFeature) feature(file string, index int) (*geojson.Feature, error) 
 	}
 	g := strings.TrimSpace(string(raw.Geometry))
 	if g != "" && g != "null" {
+		if nullInCollection(raw.Geometry) {
+			return nil, &FieldError{File: file, Feature: index, ID: idString(raw.ID), Field: "geometry",
+				Err: errors.New("not a GeoJSON geometry: a GeometryCollection holds a null geometry")}
+		}
 		geom, err := geojson.UnmarshalGeometry(raw.Geometry)
 		if err != nil {
 			return nil, &FieldError{File: file, Feature: index, ID: idString(raw.ID), Field: "geometry",
@@ -186,6 +219,32 @@ func (raw rawFeature) feature(file string, index int) (*geojson.Feature, error) 
 		f.Geometry = geom.Geometry()
 	}
 	return f, nil
+}
+
+// nullInCollection reports whether a GeometryCollection in the geometry
+// raw, at any depth, has null among its "geometries": orb v0.14.0's decoder
+// dereferences such a member and panics.
+func nullInCollection(raw []byte) bool {
+	if !bytes.Contains(raw, []byte("null")) {
+		return false
+	}
+	var g struct {
+		Type       string            `json:"type"`
+		Geometries []json.RawMessage `json:"geometries"`
+	}
+	if json.Unmarshal(raw, &g) != nil {
+		return false // orb reports the error itself
+	}
+	for _, m := range g.Geometries {
+		if strings.TrimSpace(string(m)) == "null" {
+			if g.Type == "GeometryCollection" {
+				return true
+			}
+		} else if nullInCollection(m) {
+			return true
+		}
+	}
+	return false
 }
 
 func unmarshalNumber(data []byte, v any) error {
