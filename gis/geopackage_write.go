@@ -443,8 +443,9 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 }
 
 // gpkgWriteRtree creates the R-tree index of a table after its bulk load:
-// the extension row, the virtual table filled with each row's envelope, and
-// then the triggers that keep it current when other programs edit the file.
+// the extension row, the virtual table packed with each row's envelope
+// (gpkgLoadRtree), and then the triggers that keep it current when other
+// programs edit the file.
 func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) error {
 	rtree := "rtree_" + table + "_" + gpkgGeomColumn
 	if _, err := tx.Exec(`INSERT INTO gpkg_extensions (table_name, column_name, extension_name, definition, scope) VALUES (?, ?, 'gpkg_rtree_index', ?, 'write-only')`,
@@ -454,18 +455,8 @@ func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) err
 	if _, err := tx.Exec("CREATE VIRTUAL TABLE " + gpkgQuote(rtree) + " USING rtree(id, minx, maxx, miny, maxy)"); err != nil {
 		return fmt.Errorf("table %q: creating the spatial index: %w", table, err)
 	}
-	ins, err := tx.Prepare("INSERT INTO " + gpkgQuote(rtree) + " VALUES (?, ?, ?, ?, ?)")
-	if err != nil {
-		return fmt.Errorf("table %q: spatial index: %w", table, err)
-	}
-	defer ins.Close()
-	for i, b := range boxes {
-		if !has[i] {
-			continue
-		}
-		if _, err := ins.Exec(int64(i+1), b.Min[0], b.Max[0], b.Min[1], b.Max[1]); err != nil {
-			return fmt.Errorf("table %q: spatial index row %d: %w", table, i+1, err)
-		}
+	if err := gpkgLoadRtree(tx, rtree, boxes, has); err != nil {
+		return fmt.Errorf("table %q: %w", table, err)
 	}
 	rep := strings.NewReplacer("<t>", gpkgQuote(table), "<c>", gpkgQuote(gpkgGeomColumn), "<i>", gpkgQuote(gpkgFidColumn), "<r>", gpkgQuote(rtree))
 	for _, trig := range gpkgRtreeTriggers {
