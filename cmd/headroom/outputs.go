@@ -71,11 +71,9 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		}
 	}
 	if r.cfg.wants(formatShapefile) {
-		var short [][]gis.ShapefileField
 		shp := func(l *gis.Layer) func(string) error {
 			return func(p string) error {
-				f, err := gis.WriteShapefile(p, oneShapeType(r.projected(l)), r.pipeLayerCRS.ESRIWKT())
-				short = append(short, f)
+				_, err := gis.WriteShapefile(p, oneShapeType(r.projected(l)), r.pipeLayerCRS.ESRIWKT())
 				return err
 			}
 		}
@@ -85,7 +83,13 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 			layers = append(layers, hydrants)
 			outs = append(outs, output{"hydrants.shp", shp(hydrants)})
 		}
-		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
+		// The short names come from the column names alone, so fields.csv
+		// does not wait for the shapefiles, which are written beside it.
+		fields, err := fieldsLayer(layers)
+		if err != nil {
+			return nil, err
+		}
+		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fields) }})
 	}
 	prog, err := r.progOutputs() // projects.csv, plan.csv, projects layers (programout.go)
 	if err != nil {
@@ -95,13 +99,15 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
-	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems)
-	doc := r.reportDocument(pipes, hydrants)
+	// The workbook and the report are laid out inside their writers, so
+	// that they are built while the other files are written.
 	outs = append(outs,
 		output{"ranked.xlsx", func(p string) error {
+			book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems)
 			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteXLSX(w, book) })
 		}},
 		output{"report.html", func(p string) error {
+			doc := r.reportDocument(pipes, hydrants)
 			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteHTML(w, doc) })
 		}})
 	outs = append(outs, r.manifestOutput(slices.Clone(outs)))
@@ -181,18 +187,23 @@ func spatialRef(crs *gis.CRS) gis.SpatialRef {
 }
 
 // fieldsLayer maps each shapefile field's short name to its full column
-// name and unit (a .dbf name holds at most 10 characters).
-func fieldsLayer(layers []*gis.Layer, short [][]gis.ShapefileField) *gis.Layer {
+// name and unit (a .dbf name holds at most 10 characters), for each of
+// layers in order.
+func fieldsLayer(layers []*gis.Layer) (*gis.Layer, error) {
 	out := &gis.Layer{Name: "fields", Columns: []gis.Column{
 		{Name: "file", Kind: gis.String}, {Name: "short_name", Kind: gis.String},
 		{Name: "full_name", Kind: gis.String}, {Name: "unit", Kind: gis.String},
 	}}
-	for k, fields := range short {
+	for _, l := range layers {
+		fields, err := gis.ShapefileFieldNames(l)
+		if err != nil {
+			return nil, err
+		}
 		for _, f := range fields {
-			out.Rows = append(out.Rows, gis.Row{Values: []any{layers[k].Name + ".shp", f.Short, f.Full, columnUnit(f.Full)}})
+			out.Rows = append(out.Rows, gis.Row{Values: []any{l.Name + ".shp", f.Short, f.Full, columnUnit(f.Full)}})
 		}
 	}
-	return out
+	return out, nil
 }
 
 // columnUnits are the unit suffixes of output column names, longest first.
