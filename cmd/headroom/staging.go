@@ -208,11 +208,12 @@ func commitOutputs(dir string, outs []output) ([]string, error) {
 	return written, nil
 }
 
-// writeStaged writes each of outs into stage (for dir, which errors name): all but the last at the same
-// time, at most GOMAXPROCS at once, started in the order of outs, then the
-// last alone. Once a write fails no further write is started. The error
-// names the first failed output in the order of outs, whichever finished
-// first, so that the message does not depend on timing.
+// writeStaged writes each of outs into stage (dir is only named in
+// errors): all but the last at the same time, at most GOMAXPROCS at once,
+// started in the order of outs, then the last alone, once the others are
+// complete. Once a write fails no further write is started, and the
+// writes already started are waited for. The error names the first output
+// in the order of outs whose write failed, not the first to fail in time.
 func writeStaged(stage, dir string, outs []output) error {
 	if len(outs) == 0 {
 		return nil
