@@ -388,44 +388,46 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 	if _, err := tx.Exec("CREATE TABLE " + t + " (" + strings.Join(defs, ", ") + ")"); err != nil {
 		return fmt.Errorf("creating table %q: %w", l.Name, err)
 	}
-	marks := strings.TrimSuffix(strings.Repeat("?, ", len(names)), ", ")
-	ins, err := tx.Prepare("INSERT INTO " + t + " (" + strings.Join(names, ", ") + ") VALUES (" + marks + ")")
-	if err != nil {
-		return fmt.Errorf("table %q: %w", l.Name, err)
-	}
-	defer ins.Close()
+	ins := gpkgInserter{tx: tx, head: "INSERT INTO " + t + " (" + strings.Join(names, ", ") + ") VALUES ", columns: len(names)}
+	defer ins.close()
 	boxes := make([]orb.Bound, len(l.Rows))
 	has := make([]bool, len(l.Rows))
 	var extent orb.Bound
 	haveExtent := false
-	args := make([]any, len(names))
-	var blob []byte
+	var blobs []byte // the chunk's geometries, end to end
 	for i, r := range l.Rows {
 		if len(r.Values) != len(l.Columns) {
 			return &FieldError{File: file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
 		}
-		args[0] = int64(i + 1)
-		args[1] = nil
+		if ins.pending == 0 {
+			blobs = blobs[:0]
+		}
+		var geom any
 		if g := gpkgPromote(r.Geometry, p.promote); gpkgWritable(g) {
 			boxes[i], has[i] = g.Bound(), true
-			blob = gpkgEncodeGeometry(blob[:0], srsID, g, boxes[i])
-			args[1] = blob
+			start := len(blobs)
+			blobs = gpkgEncodeGeometry(blobs, srsID, g, boxes[i])
+			geom = blobs[start:len(blobs):len(blobs)]
 			if haveExtent {
 				extent = extent.Union(boxes[i])
 			} else {
 				extent, haveExtent = boxes[i], true
 			}
 		}
+		ins.args = append(ins.args, int64(i+1), geom)
 		for j, c := range l.Columns {
 			v, err := gpkgBind(c, r.Values[j])
 			if err != nil {
 				return &FieldError{File: file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 			}
-			args[j+2] = v
+			ins.args = append(ins.args, v)
 		}
-		if _, err := ins.Exec(args...); err != nil {
-			return &FieldError{File: file, Feature: i + 1, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+		if err := ins.rowDone(); err != nil {
+			return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 		}
+	}
+	if err := ins.flush(); err != nil {
+		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
 	var bounds [4]any
 	if haveExtent {
@@ -442,9 +444,85 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 	return gpkgWriteRtree(tx, l.Name, boxes, has)
 }
 
+// gpkgRowsPerInsert is how many rows one INSERT statement writes at most:
+// one statement per row spent as long in preparing, stepping and resetting
+// the statement as in storing the row. SQLite takes at most 32,766
+// parameters a statement (SQLITE_MAX_VARIABLE_NUMBER since 3.32.0).
+const (
+	gpkgRowsPerInsert = 64
+	gpkgMaxParameters = 32_766
+)
+
+// gpkgInserter writes the rows of one table several to a statement, in
+// row order: rowDone after a row's values are appended to args, flush at
+// the end for the rows left over.
+type gpkgInserter struct {
+	tx      *sql.Tx
+	head    string // "INSERT INTO t (columns) VALUES "
+	columns int    // values per row
+	args    []any  // the values of the pending rows
+	pending int    // rows in args
+	written int    // rows written before them
+	full    *sql.Stmt
+}
+
+// perStatement is how many rows a full statement holds.
+func (in *gpkgInserter) perStatement() int {
+	return max(1, min(gpkgRowsPerInsert, gpkgMaxParameters/in.columns))
+}
+
+// statement is the INSERT of rows rows.
+func (in *gpkgInserter) statement(rows int) string {
+	row := "(" + strings.TrimSuffix(strings.Repeat("?, ", in.columns), ", ") + ")"
+	return in.head + strings.TrimSuffix(strings.Repeat(row+", ", rows), ", ")
+}
+
+// rowDone counts the row just appended and writes the pending rows once
+// they fill a statement.
+func (in *gpkgInserter) rowDone() error {
+	in.pending++
+	if in.pending < in.perStatement() {
+		return nil
+	}
+	if in.full == nil {
+		st, err := in.tx.Prepare(in.statement(in.pending))
+		if err != nil {
+			return err
+		}
+		in.full = st
+	}
+	return in.done(in.full.Exec(in.args...))
+}
+
+// flush writes the rows that did not fill a statement.
+func (in *gpkgInserter) flush() error {
+	if in.pending == 0 {
+		return nil
+	}
+	return in.done(in.tx.Exec(in.statement(in.pending), in.args...))
+}
+
+// done empties the pending rows once written; an error names their
+// feature numbers (1-based, as the fids).
+func (in *gpkgInserter) done(_ sql.Result, err error) error {
+	if err != nil {
+		return fmt.Errorf("writing features %d–%d: %w", in.written+1, in.written+in.pending, err)
+	}
+	in.written += in.pending
+	in.args, in.pending = in.args[:0], 0
+	return nil
+}
+
+func (in *gpkgInserter) close() {
+	if in.full != nil {
+		in.full.Close()
+	}
+}
+
 // gpkgWriteRtree creates the R-tree index of a table after its bulk load:
-// the extension row, the virtual table filled with each row's envelope, and
-// then the triggers that keep it current when other programs edit the file.
+// the extension row, the virtual table packed with each row's envelope
+// (gpkgLoadRtree), and then the triggers that keep it current when other
+// programs edit the file.
 func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) error {
 	rtree := "rtree_" + table + "_" + gpkgGeomColumn
 	if _, err := tx.Exec(`INSERT INTO gpkg_extensions (table_name, column_name, extension_name, definition, scope) VALUES (?, ?, 'gpkg_rtree_index', ?, 'write-only')`,
@@ -454,18 +532,8 @@ func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) err
 	if _, err := tx.Exec("CREATE VIRTUAL TABLE " + gpkgQuote(rtree) + " USING rtree(id, minx, maxx, miny, maxy)"); err != nil {
 		return fmt.Errorf("table %q: creating the spatial index: %w", table, err)
 	}
-	ins, err := tx.Prepare("INSERT INTO " + gpkgQuote(rtree) + " VALUES (?, ?, ?, ?, ?)")
-	if err != nil {
-		return fmt.Errorf("table %q: spatial index: %w", table, err)
-	}
-	defer ins.Close()
-	for i, b := range boxes {
-		if !has[i] {
-			continue
-		}
-		if _, err := ins.Exec(int64(i+1), b.Min[0], b.Max[0], b.Min[1], b.Max[1]); err != nil {
-			return fmt.Errorf("table %q: spatial index row %d: %w", table, i+1, err)
-		}
+	if err := gpkgLoadRtree(tx, rtree, boxes, has); err != nil {
+		return fmt.Errorf("table %q: %w", table, err)
 	}
 	rep := strings.NewReplacer("<t>", gpkgQuote(table), "<c>", gpkgQuote(gpkgGeomColumn), "<i>", gpkgQuote(gpkgFidColumn), "<r>", gpkgQuote(rtree))
 	for _, trig := range gpkgRtreeTriggers {

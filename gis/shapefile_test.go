@@ -572,6 +572,18 @@ func TestShapefileRoundTrip(t *testing.T) {
 	if !slices.Equal(names, wantNames) {
 		t.Errorf("names\n got %v\nwant %v", names, wantNames)
 	}
+	// ShapefileFieldNames knows the same names before anything is written
+	// (Truncated, which counts values, is left 0).
+	early, err := ShapefileFieldNames(shpRoundTripLayer())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := range wantNames {
+		wantNames[j].Truncated = 0
+	}
+	if !slices.Equal(early, wantNames) {
+		t.Errorf("ShapefileFieldNames\n got %v\nwant %v", early, wantNames)
+	}
 	l, err := ReadShapefile(path)
 	if err != nil {
 		t.Fatal(err)

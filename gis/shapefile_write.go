@@ -265,6 +265,26 @@ type dbfColumn struct {
 	maxRune int // for C fields: byte limit for a value
 }
 
+// ShapefileFieldNames returns the dbf field names WriteShapefile gives l's
+// columns, one per column in column order (see shpLaunderNames), with
+// Truncated 0: the names depend on the column names alone, so they can be
+// known before, or while, the shapefile is written.
+func ShapefileFieldNames(l *Layer) ([]ShapefileField, error) {
+	full := make([]string, len(l.Columns))
+	for j, c := range l.Columns {
+		full[j] = c.Name
+	}
+	short, err := shpLaunderNames(full)
+	if err != nil {
+		return nil, fmt.Errorf("gis: layer %q: %w", l.Name, err)
+	}
+	names := make([]ShapefileField, len(l.Columns))
+	for j := range l.Columns {
+		names[j] = ShapefileField{Short: short[j], Full: l.Columns[j].Name}
+	}
+	return names, nil
+}
+
 // dbfPlan chooses each column's dbf field (type, width, decimals) from the
 // column kind and the values, and launders the names.
 func dbfPlan(l *Layer) ([]dbfColumn, []ShapefileField, error) {

@@ -1,13 +1,10 @@
 package report
 
 import (
-	"archive/zip"
-	"bytes"
 	"errors"
 	"fmt"
 	"io"
 	"math"
-	"slices"
 	"strconv"
 	"strings"
 	"unicode/utf16"
@@ -87,8 +84,9 @@ const (
 //
 // Sheets are streamed (excelize's StreamWriter), so a sheet of a million
 // rows builds no cell tree: the stream writer keeps a sheet's XML in
-// memory up to 16 MB and in a temporary file (os.TempDir) beyond. The
-// compressed file is held in memory and written to w at the end, so bad
+// memory up to 16 MB and in a temporary file (os.TempDir) beyond. Each
+// part is deflated once, at flate.BestSpeed (see xlsxCompression), and the
+// compressed parts are held in memory and written to w at the end, so bad
 // data leaves w untouched. The same wb gives byte-identical output: no
 // clock is read, and the zip entries are written in name order.
 func WriteXLSX(w io.Writer, wb *Workbook) (err error) {
@@ -127,13 +125,14 @@ func WriteXLSX(w io.Writer, wb *Workbook) (err error) {
 			return fmt.Errorf("report: sheet %q: %w", wb.Sheets[i].Name, err)
 		}
 	}
-	// WriteToBuffer rather than Write, which would copy the whole file
-	// once more on its way to our buffer.
-	buf, err := f.WriteToBuffer()
-	if err != nil {
+	// excelize deflates into zs, which writes the parts in name order;
+	// the buffer WriteToBuffer returns stays empty.
+	zs := &sortedZip{}
+	f.SetZipWriter(func(io.Writer) excelize.ZipWriter { return zs })
+	if _, err := f.WriteToBuffer(); err != nil {
 		return fmt.Errorf("report: encoding workbook: %w", err)
 	}
-	return writeSortedZip(w, buf.Bytes())
+	return zs.writeTo(w)
 }
 
 // addSheets names the workbook's sheets in tab order. The default
@@ -505,28 +504,4 @@ func roundSignificant(x float64) float64 {
 		return x
 	}
 	return r
-}
-
-// writeSortedZip copies the zip archive in b to w with its entries in name
-// order. excelize writes streamed sheets in map order, which changes from
-// run to run; sorting makes the file repeat byte for byte. Entries are
-// copied raw (compressed data, CRCs and header fields as excelize wrote
-// them); "[Content_Types].xml" sorts first.
-func writeSortedZip(w io.Writer, b []byte) error {
-	zr, err := zip.NewReader(bytes.NewReader(b), int64(len(b)))
-	if err != nil {
-		return fmt.Errorf("report: reading encoded workbook: %w", err)
-	}
-	files := slices.Clone(zr.File)
-	slices.SortFunc(files, func(a, b *zip.File) int { return strings.Compare(a.Name, b.Name) })
-	zw := zip.NewWriter(w)
-	for _, file := range files {
-		if err := zw.Copy(file); err != nil {
-			return fmt.Errorf("report: writing workbook part %s: %w", file.Name, err)
-		}
-	}
-	if err := zw.Close(); err != nil {
-		return fmt.Errorf("report: finishing workbook: %w", err)
-	}
-	return nil
 }

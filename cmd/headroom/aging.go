@@ -375,19 +375,20 @@ func (r *result) ageUnusedZones() []gis.Problem {
 	return probs
 }
 
-// ageValues are pipe i's c_model and c_source output values. A pipe left
+// ageValues sets pipe i's c_model and c_source output values in v. A
+// pipe left
 // out of the network (unusable diameter, say) may have no C: it is written
 // as a null; a usable pipe's C must be finite, and the writers' NaN check
 // stops the run if it is not.
-func (r *result) ageValues(i int) map[string]any {
-	v := map[string]any{"c_model": nil, "c_source": string(r.age.source[i])}
+func (r *result) ageValues(i int, v rowValues) {
+	v.set("c_model", nil)
+	v.set("c_source", string(r.age.source[i]))
 	if c := r.age.model[i]; !math.IsNaN(c) || r.pipes[i].Usable {
-		v["c_model"] = c
+		v.set("c_model", c)
 	}
 	if math.IsNaN(r.cFactor[i]) && !r.pipes[i].Usable {
-		v["c_factor"] = nil
+		v.set("c_factor", nil)
 	}
-	return v
 }
 
 // ageCalibrationLayer is c_calibration.csv: per material, the count, mean

@@ -4,11 +4,13 @@ import (
 	"bytes"
 	"crypto/sha256"
 	"errors"
+	"fmt"
 	"io"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
@@ -600,4 +602,62 @@ func BenchmarkCommitWindow(b *testing.B) {
 		b.StartTimer()
 	}
 	b.ReportMetric(float64(len(outs)*size)/1e6, "MB-replaced")
+}
+
+// writeStaged writes outputs at the same time, the last one only after all
+// the others, and reports the first failure in output order. The checks
+// are made by the writers themselves: two writers that each wait for the
+// other to start can only both finish if they run at the same time, and the
+// last writer looks for every other output's file.
+func TestWriteStagedParallel(t *testing.T) {
+	if runtime.GOMAXPROCS(0) < 2 {
+		t.Skip("needs GOMAXPROCS >= 2")
+	}
+	const wait = 10 * time.Second // far longer than any scheduling delay
+	meet := func(mine, theirs chan struct{}) func(string) error {
+		return func(p string) error {
+			close(mine)
+			select {
+			case <-theirs:
+			case <-time.After(wait):
+				return errors.New("the other writer never started: the writes ran one after another")
+			}
+			return os.WriteFile(p, []byte("x"), 0o644)
+		}
+	}
+	t.Run("concurrent, last after the rest", func(t *testing.T) {
+		stage := t.TempDir()
+		a, b := make(chan struct{}), make(chan struct{})
+		outs := []output{{"a.csv", meet(a, b)}, {"b.csv", meet(b, a)}, {"manifest.json", func(p string) error {
+			for _, f := range []string{"a.csv", "b.csv"} {
+				if _, err := os.Stat(filepath.Join(stage, f)); err != nil {
+					return fmt.Errorf("the last output ran before %s was complete: %w", f, err)
+				}
+			}
+			return os.WriteFile(p, []byte("m"), 0o644)
+		}}}
+		if err := writeStaged(stage, "out", outs); err != nil {
+			t.Fatal(err)
+		}
+	})
+	t.Run("first failure in output order", func(t *testing.T) {
+		started := make(chan struct{})
+		outs := []output{
+			{"slow.csv", func(string) error {
+				select {
+				case <-started:
+				case <-time.After(wait):
+					return errors.New("fast.csv never started")
+				}
+				time.Sleep(50 * time.Millisecond)
+				return errors.New("slow failure")
+			}},
+			{"fast.csv", func(string) error { close(started); return errors.New("fast failure") }},
+			{"manifest.json", func(string) error { return errors.New("the last output ran after a failure") }},
+		}
+		err := writeStaged(t.TempDir(), "out", outs)
+		if err == nil || !strings.Contains(err.Error(), "slow.csv: slow failure") {
+			t.Errorf("error %v, want the one of slow.csv, the first output", err)
+		}
+	})
 }

@@ -273,12 +273,14 @@ func TestCtlCheckValve(t *testing.T) {
 				demands: map[int]float64{1: 100},
 			})
 			q := ctlFlowGPM(t, r, "CV-1")
+			layer := r.pipeLayer()
+			status := columnPositions(layer.Columns)["status"]
 			for i, p := range r.pipes {
 				if p.ID != "CV-1" {
 					continue
 				}
 				want := map[string]string{"CV": "check valve", "open": "open"}[c.status]
-				if got := r.pipeValues(i, p, r.cfg.system())["status"]; got != want {
+				if got := layer.Rows[i].Values[status]; got != want {
 					t.Errorf("status column %v, want %q", got, want)
 				}
 			}

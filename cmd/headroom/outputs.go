@@ -71,11 +71,9 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 		}
 	}
 	if r.cfg.wants(formatShapefile) {
-		var short [][]gis.ShapefileField
 		shp := func(l *gis.Layer) func(string) error {
 			return func(p string) error {
-				f, err := gis.WriteShapefile(p, oneShapeType(r.projected(l)), r.pipeLayerCRS.ESRIWKT())
-				short = append(short, f)
+				_, err := gis.WriteShapefile(p, oneShapeType(r.projected(l)), r.pipeLayerCRS.ESRIWKT())
 				return err
 			}
 		}
@@ -85,7 +83,13 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 			layers = append(layers, hydrants)
 			outs = append(outs, output{"hydrants.shp", shp(hydrants)})
 		}
-		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fieldsLayer(layers, short)) }})
+		// The short names come from the column names alone, so fields.csv
+		// does not wait for the shapefiles, which are written beside it.
+		fields, err := fieldsLayer(layers)
+		if err != nil {
+			return nil, err
+		}
+		outs = append(outs, output{"fields.csv", func(p string) error { return gis.WriteCSV(p, fields) }})
 	}
 	prog, err := r.progOutputs() // projects.csv, plan.csv, projects layers (programout.go)
 	if err != nil {
@@ -95,13 +99,15 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	calibration := r.ageCalibrationLayer()
 	outs = append(outs, output{"c_calibration.csv", func(p string) error { return gis.WriteCSV(p, calibration) }})
 	outs = append(outs, output{"problems.csv", func(p string) error { return gis.WriteCSV(p, problems) }})
-	book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems, maxSheetRows)
-	doc := r.reportDocument(pipes, hydrants)
+	// The workbook and the report are laid out inside their writers, so
+	// that they are built while the other files are written.
 	outs = append(outs,
 		output{"ranked.xlsx", func(p string) error {
+			book := rankedWorkbook(ranked, r.progProjectLayer(), r.progPlanLayer(), problems, maxSheetRows)
 			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteXLSX(w, book) })
 		}},
 		output{"report.html", func(p string) error {
+			doc := r.reportDocument(pipes, hydrants)
 			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteHTML(w, doc) })
 		}})
 	outs = append(outs, r.manifestOutput(slices.Clone(outs)))
@@ -181,18 +187,23 @@ func spatialRef(crs *gis.CRS) gis.SpatialRef {
 }
 
 // fieldsLayer maps each shapefile field's short name to its full column
-// name and unit (a .dbf name holds at most 10 characters).
-func fieldsLayer(layers []*gis.Layer, short [][]gis.ShapefileField) *gis.Layer {
+// name and unit (a .dbf name holds at most 10 characters), for each of
+// layers in order.
+func fieldsLayer(layers []*gis.Layer) (*gis.Layer, error) {
 	out := &gis.Layer{Name: "fields", Columns: []gis.Column{
 		{Name: "file", Kind: gis.String}, {Name: "short_name", Kind: gis.String},
 		{Name: "full_name", Kind: gis.String}, {Name: "unit", Kind: gis.String},
 	}}
-	for k, fields := range short {
+	for _, l := range layers {
+		fields, err := gis.ShapefileFieldNames(l)
+		if err != nil {
+			return nil, err
+		}
 		for _, f := range fields {
-			out.Rows = append(out.Rows, gis.Row{Values: []any{layers[k].Name + ".shp", f.Short, f.Full, columnUnit(f.Full)}})
+			out.Rows = append(out.Rows, gis.Row{Values: []any{l.Name + ".shp", f.Short, f.Full, columnUnit(f.Full)}})
 		}
 	}
-	return out
+	return out, nil
 }
 
 // columnUnits are the unit suffixes of output column names, longest first.
@@ -286,21 +297,42 @@ func (r *result) otherScenarios() []scenario {
 func (r *result) pipeLayer() *gis.Layer {
 	s := r.cfg.system()
 	cols := r.pipeColumns()
+	index := columnPositions(cols)
 	l := &gis.Layer{Name: "pipes", Columns: cols, Rows: make([]gis.Row, len(r.pipes))}
 	for i, p := range r.pipes {
-		v := r.pipeValues(i, p, s)
-		row := make([]any, len(cols))
-		for k, c := range cols {
-			row[k] = v[c.Name]
-		}
-		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: row}
+		v := rowValues{index: index, vals: make([]any, len(cols))}
+		r.pipeValues(i, p, s, v)
+		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: v.vals}
 	}
 	return l
 }
 
-// pipeValues are one pipe's output values by column name; a missing name
-// is a null.
-func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]any {
+// columnPositions maps each column's name to its position.
+func columnPositions(cols []gis.Column) map[string]int {
+	index := make(map[string]int, len(cols))
+	for k, c := range cols {
+		index[c.Name] = k
+	}
+	return index
+}
+
+// rowValues fills one output row by column name. A name that is not one
+// of the columns is ignored, and a column never set stays nil (a null).
+type rowValues struct {
+	index map[string]int // column name → position in vals
+	vals  []any
+}
+
+// set puts x in the column named name, if the row has one.
+func (v rowValues) set(name string, x any) {
+	if k, ok := v.index[name]; ok {
+		v.vals[k] = x
+	}
+}
+
+// pipeValues sets one pipe's output values in v by column name; a column
+// not set is a null.
+func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System, v rowValues) {
 	d, l, q, vs, h := s.DiameterSuffix(), s.LengthSuffix(), s.FlowSuffix(), s.VelocitySuffix(), s.UnitHeadLossSuffix()
 	sc := r.scores[i]
 	status := "open"
@@ -310,45 +342,54 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System) map[string]a
 	case p.CheckValve:
 		status = "check valve" // open, flow first vertex → last only
 	}
-	v := map[string]any{
-		"pipe_id": p.ID, "feature": p.Index, "status": status, "material": p.Material,
-		"diameter_" + d: s.Diameter(p.Diameter), "length_" + l: s.Length(p.Length),
-		"c_factor": r.cFactor[i], "c_basis": r.cBasis[i], "reasons": sc.Reasons,
-	}
-	for k, x := range r.ageValues(i) { // c_model, c_source (aging.go); sets keys only, so order does not matter
-		v[k] = x
-	}
+	v.set("pipe_id", p.ID)
+	v.set("feature", p.Index)
+	v.set("status", status)
+	v.set("material", p.Material)
+	v.set("diameter_"+d, s.Diameter(p.Diameter))
+	v.set("length_"+l, s.Length(p.Length))
+	v.set("c_factor", r.cFactor[i])
+	v.set("c_basis", r.cBasis[i])
+	v.set("reasons", sc.Reasons)
+	r.ageValues(i, v)      // c_model, c_source (aging.go)
 	r.curePipeValues(i, v) // recommended_diameter_in (upsize.go)
 	r.progPipeValues(i, v) // risk, priority, project (programout.go)
 	if p.InstallYear > 0 {
-		v["install_year"] = p.InstallYear
+		v.set("install_year", p.InstallYear)
 	}
 	if i < len(r.inside) && r.inside[i] > 0 {
-		v["inside_diameter_"+d] = s.Diameter(r.inside[i])
+		v.set("inside_diameter_"+d, s.Diameter(r.inside[i]))
 	}
 	if len(r.parts[i]) > 0 {
 		e := r.topo.Ends[i]
-		v["from_node"], v["to_node"] = r.net.Nodes[e[0]].ID, r.net.Nodes[e[1]].ID
+		v.set("from_node", r.net.Nodes[e[0]].ID)
+		v.set("to_node", r.net.Nodes[e[1]].ID)
 		if !r.pipeUnsupplied(i) {
 			j := r.governing(i) // a split pipe reports its part with the largest friction slope
 			c := r.checks[j]
-			v["flow_"+q], v["velocity_"+vs], v["headloss_"+h] = s.Flow(c.Flow), s.Velocity(c.Velocity), s.UnitHeadLoss(c.Slope)
-			v["capacity_"+q], v["deficit_"+q] = s.Flow(c.Capacity), s.Flow(c.Deficit)
+			v.set("flow_"+q, s.Flow(c.Flow))
+			v.set("velocity_"+vs, s.Velocity(c.Velocity))
+			v.set("headloss_"+h, s.UnitHeadLoss(c.Slope))
+			v.set("capacity_"+q, s.Flow(c.Capacity))
+			v.set("deficit_"+q, s.Flow(c.Deficit))
 			if c.Required.Nominal > 0 {
-				v["required_diameter_"+d] = s.Diameter(c.Required.Nominal)
+				v.set("required_diameter_"+d, s.Diameter(c.Required.Nominal))
 			}
 			for _, o := range r.otherScenarios() {
 				np := r.net.Pipes[j]
-				v[o.prefix+"flow_"+q] = s.Flow(o.sol.Flow[j])
-				v[o.prefix+"headloss_"+h] = s.UnitHeadLoss(hydraulics.FrictionSlope(o.sol.Flow[j], np.Diameter, np.C))
+				v.set(o.prefix+"flow_"+q, s.Flow(o.sol.Flow[j]))
+				v.set(o.prefix+"headloss_"+h, s.UnitHeadLoss(hydraulics.FrictionSlope(o.sol.Flow[j], np.Diameter, np.C)))
 			}
 		}
 	}
 	if sc.Scored {
-		v["rank"], v["score"] = sc.Rank, sc.Score
-		v["score_headloss"], v["score_velocity"], v["score_c_factor"], v["score_deficit"] = sc.HeadLoss, sc.Velocity, sc.CFactor, sc.Deficit
+		v.set("rank", sc.Rank)
+		v.set("score", sc.Score)
+		v.set("score_headloss", sc.HeadLoss)
+		v.set("score_velocity", sc.Velocity)
+		v.set("score_c_factor", sc.CFactor)
+		v.set("score_deficit", sc.Deficit)
 	}
-	return v
 }
 
 // rankedLayer is the scored rows of the pipe layer, rank 1 first.

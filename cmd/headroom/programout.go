@@ -54,28 +54,31 @@ func (r *result) progRate(perMetreYear float64) float64 {
 }
 
 // progPipeValues adds input pipe i's program values to v.
-func (r *result) progPipeValues(i int, v map[string]any) {
+func (r *result) progPipeValues(i int, v rowValues) {
 	p := r.prog
 	if p == nil || !r.scores[i].Scored {
 		return
 	}
 	if p.pipeBreaks != nil {
-		v["breaks"] = p.pipeBreaks[i].Count
-		v["breaks_per_"+r.progRateSuffix()] = r.progRate(p.pipeBreaks[i].PerLengthYear)
+		v.set("breaks", p.pipeBreaks[i].Count)
+		v.set("breaks_per_"+r.progRateSuffix(), r.progRate(p.pipeBreaks[i].PerLengthYear))
 		if y := p.replaceYear[i]; !math.IsNaN(y) && !math.IsInf(y, 0) {
-			v["replacement_year"] = int(math.Ceil(y))
+			v.set("replacement_year", int(math.Ceil(y)))
 		}
 		if st := p.replaceState[i]; st != scoring.ReplacementInvalid {
-			v["replacement_economics"] = st.String() // due, future or never (Shamir & Howard)
+			v.set("replacement_economics", st.String()) // due, future or never (Shamir & Howard)
 		}
 	}
 	k := p.risk[i]
-	v["likelihood"], v["consequence"], v["risk"] = k.Likelihood, k.Consequence, k.Value
-	v["priority"], v["priority_rank"] = p.priority[i], p.priorityRank[i]
+	v.set("likelihood", k.Likelihood)
+	v.set("consequence", k.Consequence)
+	v.set("risk", k.Value)
+	v.set("priority", p.priority[i])
+	v.set("priority_rank", p.priorityRank[i])
 	if j := p.projectOf[i]; j >= 0 {
-		v["project_id"] = p.projects[j].id
+		v.set("project_id", p.projects[j].id)
 		if y := p.projects[j].year; y > 0 {
-			v["plan_year"] = y
+			v.set("plan_year", y)
 		}
 	}
 }

@@ -7,8 +7,11 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strings"
+	"sync"
+	"sync/atomic"
 
 	"github.com/paulmach/orb"
 
@@ -149,6 +152,11 @@ func nonFiniteError(l *gis.Layer, i int, column string, x float64) error {
 // removes the staging folder. It returns the outputs' paths in dir, in
 // the order of outs.
 //
+// The outputs are written at the same time, as many at once as
+// GOMAXPROCS, except the last, which is written after all the others are
+// complete so that it can read them (manifest.json hashes them). Each
+// writer gets its own path and must share nothing else it changes.
+//
 // Before it stages anything it removes any staging folder a killed run left
 // in dir, and it refuses a destination that is a folder (a rename could not
 // replace it). Each writer syncs its file to disk before it returns, and dir
@@ -187,10 +195,8 @@ func commitOutputs(dir string, outs []output) ([]string, error) {
 	// Best effort: once the outputs are in place a staging folder that
 	// cannot be removed is harmless, and the next run removes it.
 	defer os.RemoveAll(stage)
-	for _, o := range outs {
-		if err := o.write(filepath.Join(stage, o.name)); err != nil {
-			return nil, fmt.Errorf("writing %s: %w; the previous outputs in %s are unchanged", filepath.Join(dir, o.name), err, dir)
-		}
+	if err := writeStaged(stage, dir, outs); err != nil {
+		return nil, fmt.Errorf("%w; the previous outputs in %s are unchanged", err, dir)
 	}
 	if err := renameAll(stage, dir, outs); err != nil {
 		return nil, err
@@ -200,6 +206,49 @@ func commitOutputs(dir string, outs []output) ([]string, error) {
 		written[i] = filepath.Join(dir, o.name)
 	}
 	return written, nil
+}
+
+// writeStaged writes each of outs into stage (dir is only named in
+// errors): all but the last at the same time, at most GOMAXPROCS at once,
+// started in the order of outs, then the last alone, once the others are
+// complete. Once a write fails no further write is started, and the
+// writes already started are waited for. The error names the first output
+// in the order of outs whose write failed, not the first to fail in time.
+func writeStaged(stage, dir string, outs []output) error {
+	if len(outs) == 0 {
+		return nil
+	}
+	errs := make([]error, len(outs)) // one slot per output, in outs' order
+	var (
+		wg     sync.WaitGroup
+		failed atomic.Bool
+	)
+	slots := make(chan struct{}, runtime.GOMAXPROCS(0))
+	for k, o := range outs[:len(outs)-1] {
+		slots <- struct{}{}
+		if failed.Load() {
+			<-slots
+			break
+		}
+		wg.Go(func() {
+			defer func() { <-slots }()
+			if err := o.write(filepath.Join(stage, o.name)); err != nil {
+				errs[k] = err
+				failed.Store(true)
+			}
+		})
+	}
+	wg.Wait()
+	if !failed.Load() {
+		last := outs[len(outs)-1]
+		errs[len(outs)-1] = last.write(filepath.Join(stage, last.name))
+	}
+	for k, err := range errs {
+		if err != nil {
+			return fmt.Errorf("writing %s: %w", filepath.Join(dir, outs[k].name), err)
+		}
+	}
+	return nil
 }
 
 // renameAll moves every staged file of outs into dir, last output first,

@@ -182,12 +182,12 @@ func (r *result) curePipeColumns() []gis.Column {
 
 // curePipeValues adds input pipe i's recommended size to v: 0 when it
 // keeps its main, empty when it is not in the network.
-func (r *result) curePipeValues(i int, v map[string]any) {
+func (r *result) curePipeValues(i int, v rowValues) {
 	if r.cure == nil || len(r.parts[i]) == 0 {
 		return
 	}
 	s := r.cfg.system()
-	v["recommended_diameter_"+s.DiameterSuffix()] = s.Diameter(r.cureRecommended(i))
+	v.set("recommended_diameter_"+s.DiameterSuffix(), s.Diameter(r.cureRecommended(i)))
 }
 
 // cureNodeColumns are the node layer's after-upsizing pressures: peak hour

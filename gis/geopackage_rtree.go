@@ -1,0 +1,281 @@
+package gis
+
+import (
+	"cmp"
+	"database/sql"
+	"encoding/binary"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+
+	"github.com/paulmach/orb"
+)
+
+// The R-tree index of a GeoPackage table (OGC 12-128 Annex F.3) is an
+// SQLite R*Tree virtual table, rtree_<t>_geom(id, minx, maxx, miny, maxy).
+// Filling it row by row runs SQLite's R*Tree insertion (choose a leaf,
+// split full nodes) once per feature. gpkgLoadRtree instead packs the
+// whole tree in Go, with Sort-Tile-Recursive, and writes its nodes straight
+// into the three tables that hold an R*Tree, as GDAL's GeoPackage driver
+// does for a bulk load (sqlite_rtree_bulk_load.c, GDAL 3.9). The tables
+// and the node format are those of SQLite's ext/rtree/rtree.c ("Database
+// Format of R-Tree Tables"):
+//
+//	<r>_node(nodeno INTEGER PRIMARY KEY, data BLOB)   one row per node; the root is node 1
+//	<r>_parent(nodeno INTEGER PRIMARY KEY, parentnode INTEGER)   one row per node but the root
+//	<r>_rowid(rowid INTEGER PRIMARY KEY, nodeno INTEGER)   the leaf that holds each feature
+//
+// A node's data is a fixed-size blob (the size of the empty root SQLite
+// makes): the tree depth as a big-endian uint16 (root only; 0 when the
+// root is a leaf; 0 on other nodes), the number of cells as a big-endian
+// uint16, then the cells, each a big-endian int64 (a feature's id in a
+// leaf, a child's node number above) and the box minx, maxx, miny, maxy as
+// big-endian float32. Boxes are rounded outwards to float32, as SQLite's
+// rtreeValueDown and rtreeValueUp round them, so that every box holds its
+// feature's. SQLite's own rtreecheck() checks the result in the tests.
+//
+// References: S. T. Leutenegger, M. A. Lopez and J. Edgington, "STR: a
+// simple and efficient algorithm for R-tree packing", Proc. 13th ICDE
+// (1997), 497–506.
+
+// rtreeMaxCells is RTREE_MAXCELLS of SQLite's rtree.c, the most cells a
+// node holds whatever the page size.
+const rtreeMaxCells = 51
+
+// rtreeCellBytes is the size of one 2-D cell: an int64 and four float32.
+const rtreeCellBytes = 8 + 4*4
+
+// rtreeCell is one entry of a node: a feature's id and box in a leaf, a
+// child's node number and the box around it above.
+type rtreeCell struct {
+	id                     int64
+	minX, maxX, minY, maxY float32
+}
+
+// rtreeNode is one packed node, numbered as it is written.
+type rtreeNode struct {
+	no    int64
+	cells []rtreeCell
+}
+
+// gpkgLoadRtree fills the empty R*Tree rtree (just created) with the boxes
+// of the rows that have one (has[i]); row i's id is its fid, i+1.
+func gpkgLoadRtree(tx *sql.Tx, rtree string, boxes []orb.Bound, has []bool) error {
+	var nodeBytes int
+	if err := tx.QueryRow("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1").Scan(&nodeBytes); err != nil {
+		return fmt.Errorf("reading the spatial index root: %w", err)
+	}
+	fanout := min(rtreeMaxCells, (nodeBytes-4)/rtreeCellBytes)
+	if fanout < 2 {
+		return fmt.Errorf("spatial index nodes of %d bytes hold fewer than 2 cells", nodeBytes)
+	}
+	var leaves []rtreeCell
+	for i, b := range boxes {
+		if has[i] {
+			leaves = append(leaves, rtreeBox(int64(i+1), b))
+		}
+	}
+	if len(leaves) == 0 {
+		return nil // the empty root SQLite made is the whole tree
+	}
+	levels := rtreePack(leaves, fanout)
+	return rtreeWrite(tx, rtree, nodeBytes, levels)
+}
+
+// rtreeBox is b as a cell, rounded outwards to float32.
+func rtreeBox(id int64, b orb.Bound) rtreeCell {
+	return rtreeCell{id: id, minX: float32Down(b.Min[0]), maxX: float32Up(b.Max[0]), minY: float32Down(b.Min[1]), maxY: float32Up(b.Max[1])}
+}
+
+// float32Down is the largest float32 not above x (SQLite's rtreeValueDown).
+func float32Down(x float64) float32 {
+	f := float32(x)
+	if float64(f) > x {
+		f = math.Nextafter32(f, float32(math.Inf(-1)))
+	}
+	return f
+}
+
+// float32Up is the smallest float32 not below x (SQLite's rtreeValueUp).
+func float32Up(x float64) float32 {
+	f := float32(x)
+	if float64(f) < x {
+		f = math.Nextafter32(f, float32(math.Inf(1)))
+	}
+	return f
+}
+
+// rtreePack builds the tree over leaves bottom up and returns its levels,
+// leaves first and the root (one node) last. Nodes are numbered from the
+// root down, level by level, so the root is node 1.
+func rtreePack(cells []rtreeCell, fanout int) [][]rtreeNode {
+	var levels [][]rtreeNode
+	for {
+		nodes := rtreeTile(cells, fanout)
+		levels = append(levels, nodes)
+		if len(nodes) == 1 {
+			break
+		}
+		cells = make([]rtreeCell, len(nodes))
+		for k := range nodes {
+			cells[k] = rtreeCover(nodes[k].cells)
+			cells[k].id = int64(k) // the node's place in its level, until the nodes are numbered
+		}
+	}
+	no := int64(1)
+	for l := len(levels) - 1; l >= 0; l-- {
+		for k := range levels[l] {
+			levels[l][k].no = no
+			no++
+		}
+	}
+	for l := 1; l < len(levels); l++ {
+		for _, parent := range levels[l] {
+			for c := range parent.cells {
+				parent.cells[c].id = levels[l-1][parent.cells[c].id].no
+			}
+		}
+	}
+	return levels
+}
+
+// rtreeTile groups cells into nodes of at most fanout by Sort-Tile-Recursive:
+// the cells sorted by the x of their centres are cut into ⌈√P⌉ vertical
+// slices (P = ⌈n/fanout⌉ nodes), and each slice, sorted by y, into runs of
+// fanout. Ties fall back to the id, so the tree repeats exactly.
+func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
+	cells = slices.Clone(cells)
+	byCentre := func(x func(c rtreeCell) float64) func(a, b rtreeCell) int {
+		return func(a, b rtreeCell) int {
+			return cmp.Or(cmp.Compare(x(a), x(b)), cmp.Compare(a.id, b.id))
+		}
+	}
+	centreX := func(c rtreeCell) float64 { return float64(c.minX) + float64(c.maxX) }
+	centreY := func(c rtreeCell) float64 { return float64(c.minY) + float64(c.maxY) }
+	slices.SortFunc(cells, byCentre(centreX))
+	nodes := (len(cells) + fanout - 1) / fanout
+	slices2 := int(math.Ceil(math.Sqrt(float64(nodes))))
+	per := slices2 * fanout // cells per vertical slice
+	out := make([]rtreeNode, 0, nodes)
+	for s := 0; s < len(cells); s += per {
+		slice := cells[s:min(s+per, len(cells))]
+		slices.SortFunc(slice, byCentre(centreY))
+		for k := 0; k < len(slice); k += fanout {
+			out = append(out, rtreeNode{cells: slice[k:min(k+fanout, len(slice)):min(k+fanout, len(slice))]})
+		}
+	}
+	return out
+}
+
+// rtreeCover is the box around cells.
+func rtreeCover(cells []rtreeCell) rtreeCell {
+	c := cells[0]
+	for _, x := range cells[1:] {
+		c.minX, c.maxX = min(c.minX, x.minX), max(c.maxX, x.maxX)
+		c.minY, c.maxY = min(c.minY, x.minY), max(c.maxY, x.maxY)
+	}
+	return c
+}
+
+// rtreeWrite stores the packed levels in rtree's shadow tables: the root
+// over the empty node 1, every other node with its parent, and each
+// feature's leaf.
+func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
+	depth := len(levels) - 1
+	if depth > math.MaxUint16 {
+		return fmt.Errorf("spatial index %d levels deep", depth+1)
+	}
+	root := levels[depth][0]
+	blob := make([]byte, nodeBytes)
+	if _, err := tx.Exec("UPDATE "+gpkgQuote(rtree+"_node")+" SET data = ? WHERE nodeno = 1", rtreeEncode(blob, uint16(depth), root.cells)); err != nil {
+		return fmt.Errorf("writing the spatial index root: %w", err)
+	}
+	q := func(suffix string) string { return gpkgQuote(rtree + "_" + suffix) }
+	insNode, err := tx.Prepare("INSERT INTO " + q("node") + " (nodeno, data) VALUES (?, ?)")
+	if err != nil {
+		return fmt.Errorf("spatial index: %w", err)
+	}
+	defer insNode.Close()
+	insParent, err := tx.Prepare("INSERT INTO " + q("parent") + " (nodeno, parentnode) VALUES (?, ?)")
+	if err != nil {
+		return fmt.Errorf("spatial index: %w", err)
+	}
+	defer insParent.Close()
+	for l := depth; l >= 0; l-- {
+		for _, n := range levels[l] {
+			if l < depth {
+				if _, err := insNode.Exec(n.no, rtreeEncode(blob, 0, n.cells)); err != nil {
+					return fmt.Errorf("spatial index node %d: %w", n.no, err)
+				}
+			}
+			if l == 0 {
+				continue
+			}
+			for _, c := range n.cells {
+				if _, err := insParent.Exec(c.id, n.no); err != nil {
+					return fmt.Errorf("spatial index node %d: %w", c.id, err)
+				}
+			}
+		}
+	}
+	return rtreeWriteRowids(tx, q("rowid"), levels[0])
+}
+
+// rtreeWriteRowids maps each feature to its leaf, in fid order (so the
+// table's B-tree is appended to, never split in the middle), many rows to
+// a statement.
+func rtreeWriteRowids(tx *sql.Tx, table string, leaves []rtreeNode) error {
+	var pairs [][2]int64
+	for _, n := range leaves {
+		for _, c := range n.cells {
+			pairs = append(pairs, [2]int64{c.id, n.no})
+		}
+	}
+	slices.SortFunc(pairs, func(a, b [2]int64) int { return cmp.Compare(a[0], b[0]) })
+	const perStatement = 500 // 1,000 parameters, well under SQLite's 32,766
+	args := make([]any, 0, 2*perStatement)
+	var stmt *sql.Stmt
+	for start := 0; start < len(pairs); start += perStatement {
+		chunk := pairs[start:min(start+perStatement, len(pairs))]
+		if stmt == nil || len(chunk) < perStatement {
+			if stmt != nil {
+				stmt.Close()
+			}
+			var err error
+			stmt, err = tx.Prepare("INSERT INTO " + table + " (rowid, nodeno) VALUES " + strings.TrimSuffix(strings.Repeat("(?, ?), ", len(chunk)), ", "))
+			if err != nil {
+				return fmt.Errorf("spatial index: %w", err)
+			}
+		}
+		args = args[:0]
+		for _, p := range chunk {
+			args = append(args, p[0], p[1])
+		}
+		if _, err := stmt.Exec(args...); err != nil {
+			stmt.Close()
+			return fmt.Errorf("spatial index rows %d–%d: %w", chunk[0][0], chunk[len(chunk)-1][0], err)
+		}
+	}
+	if stmt != nil {
+		stmt.Close()
+	}
+	return nil
+}
+
+// rtreeEncode writes a node into blob (all of it: unused cells are zero)
+// and returns blob.
+func rtreeEncode(blob []byte, depth uint16, cells []rtreeCell) []byte {
+	clear(blob)
+	binary.BigEndian.PutUint16(blob[0:], depth)
+	binary.BigEndian.PutUint16(blob[2:], uint16(len(cells)))
+	p := 4
+	for _, c := range cells {
+		binary.BigEndian.PutUint64(blob[p:], uint64(c.id))
+		for k, v := range [4]float32{c.minX, c.maxX, c.minY, c.maxY} {
+			binary.BigEndian.PutUint32(blob[p+8+4*k:], math.Float32bits(v))
+		}
+		p += rtreeCellBytes
+	}
+	return blob
+}
