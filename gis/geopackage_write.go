@@ -105,6 +105,11 @@ type gpkgPlan struct {
 // last_change of every table is written as 1970-01-01T00:00:00.000Z.
 func WriteGeoPackage(path string, srs SpatialRef, layers ...*Layer) error {
 	file := filepath.Base(path)
+	for _, l := range layers {
+		if l.Order != nil {
+			return errOrdered(l)
+		}
+	}
 	srsRows, err := gpkgSRSRows(srs)
 	if err != nil {
 		return &FieldError{File: file, Err: err}

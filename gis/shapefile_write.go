@@ -57,6 +57,9 @@ var dbfWriteDate = [3]byte{100, 1, 1}
 // names the code page. Field names are laundered like GDAL's (see
 // shpLaunderNames) and returned, one per column, in column order.
 func WriteShapefile(path string, l *Layer, prj string) ([]ShapefileField, error) {
+	if l.Order != nil {
+		return nil, errOrdered(l)
+	}
 	stem, ext := path, filepath.Ext(path)
 	if strings.EqualFold(ext, ".shp") {
 		stem = strings.TrimSuffix(path, ext)

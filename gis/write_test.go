@@ -421,3 +421,35 @@ func FuzzWriteCSVText(f *testing.F) {
 		}
 	})
 }
+
+// TestLayerOrder: a layer with an Order writes to CSV the same bytes as a
+// layer holding its rows copied in that order, and the writers that cannot
+// follow an Order refuse it rather than mislabel columns.
+func TestLayerOrder(t *testing.T) {
+	cols := []Column{{Name: "id", Kind: String}, {Name: "x", Kind: Real, Decimals: 2}, {Name: "rank", Kind: Integer}}
+	rows := []Row{{Values: []any{"A", 1.5, 2}}, {Values: []any{"B", nil, 1}}}
+	ordered := &Layer{Name: "t", Columns: []Column{cols[2], cols[0], cols[1]}, Rows: rows, Order: []int{2, 0, 1}}
+	copied := &Layer{Name: "t", Columns: ordered.Columns, Rows: []Row{{Values: []any{2, "A", 1.5}}, {Values: []any{1, "B", nil}}}}
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
+	if err := WriteCSV(a, ordered); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteCSV(b, copied); err != nil {
+		t.Fatal(err)
+	}
+	ga, _ := os.ReadFile(a)
+	gb, _ := os.ReadFile(b)
+	if string(ga) != string(gb) || !strings.HasPrefix(string(ga), "rank,id,x\n2,A,1.50\n") {
+		t.Fatalf("ordered CSV\n%s\ncopied CSV\n%s", ga, gb)
+	}
+	if err := WriteGeoJSON(filepath.Join(dir, "c.geojson"), ordered); err == nil {
+		t.Error("WriteGeoJSON wrote a layer with an Order")
+	}
+	if _, err := WriteShapefile(filepath.Join(dir, "c.shp"), ordered, ""); err == nil {
+		t.Error("WriteShapefile wrote a layer with an Order")
+	}
+	if err := WriteGeoPackage(filepath.Join(dir, "c.gpkg"), SpatialRef{ID: 4326}, ordered); err == nil {
+		t.Error("WriteGeoPackage wrote a layer with an Order")
+	}
+}

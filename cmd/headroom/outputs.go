@@ -394,20 +394,23 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System, v rowValues)
 
 // rankedLayer is the scored rows of the pipe layer, rank 1 first.
 func (r *result) rankedLayer(pipes *gis.Layer) *gis.Layer {
-	l := &gis.Layer{Name: "ranked", Columns: pipes.Columns}
+	l := &gis.Layer{Name: "ranked"}
 	for i, sc := range r.scores {
 		if sc.Scored {
-			l.Rows = append(l.Rows, gis.Row{Values: pipes.Rows[i].Values})
+			l.Rows = append(l.Rows, gis.Row{Values: pipes.Rows[i].Values}) // shared, not copied
 		}
 	}
 	slices.SortStableFunc(l.Rows, func(a, b gis.Row) int {
 		return cmp.Compare(a.Values[2].(int), b.Values[2].(int))
 	})
 	// rank first, as a reader of a ranked list expects
-	l.Columns = append([]gis.Column{l.Columns[2]}, slices.Concat(l.Columns[:2], l.Columns[3:])...)
-	for k, row := range l.Rows {
-		v := row.Values
-		l.Rows[k].Values = append([]any{v[2]}, slices.Concat(v[:2], v[3:])...)
+	l.Order = append([]int{2, 0, 1}, make([]int, len(pipes.Columns)-3)...)
+	for k := 3; k < len(l.Order); k++ {
+		l.Order[k] = k
+	}
+	l.Columns = make([]gis.Column, len(pipes.Columns))
+	for k, at := range l.Order {
+		l.Columns[k] = pipes.Columns[at]
 	}
 	return l
 }

@@ -31,12 +31,10 @@ func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *rep
 		if t.layer == nil {
 			continue
 		}
-		ws := workSheet(t.name, t.layer)
-		if len(ws.Rows) > limit {
-			cut = append(cut, []any{t.name, t.file, len(ws.Rows), limit})
-			ws.Rows = ws.Rows[:limit]
+		if n := len(t.layer.Rows); n > limit {
+			cut = append(cut, []any{t.name, t.file, n, limit})
 		}
-		wb.Sheets = append(wb.Sheets, ws)
+		wb.Sheets = append(wb.Sheets, workSheet(t.name, t.layer, limit))
 	}
 	if cut != nil {
 		wb.Sheets = append(wb.Sheets, report.WorkSheet{Name: "truncated", Rows: cut, Columns: []report.WorkColumn{
@@ -45,17 +43,31 @@ func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *rep
 	return wb
 }
 
-// workSheet turns a layer's table (its geometry dropped) into a sheet.
-func workSheet(name string, l *gis.Layer) report.WorkSheet {
-	ws := report.WorkSheet{Name: name, Columns: make([]report.WorkColumn, len(l.Columns)), Rows: make([][]any, len(l.Rows))}
+// workSheet turns a layer's table (its geometry dropped) into a sheet of
+// its first limit rows at most.
+func workSheet(name string, l *gis.Layer, limit int) report.WorkSheet {
+	ws := report.WorkSheet{Name: name, Columns: make([]report.WorkColumn, len(l.Columns)), Rows: make([][]any, min(len(l.Rows), limit))}
 	for i, c := range l.Columns {
 		ws.Columns[i] = report.WorkColumn{Name: c.Name, Unit: unitOf(c.Name), Decimals: max(c.Decimals, 0),
 			Integer: c.Kind == gis.Integer, Plain: plainNumber(c.Name)}
 	}
-	for i, row := range l.Rows {
-		ws.Rows[i] = fitCells(row.Values, name)
+	for i, row := range l.Rows[:len(ws.Rows)] {
+		if l.Order != nil {
+			ws.Rows[i] = fitCells(orderedValues(l, i), name)
+		} else {
+			ws.Rows[i] = fitCells(row.Values, name)
+		}
 	}
 	return ws
+}
+
+// orderedValues is row i of l in column order (l.Order applied).
+func orderedValues(l *gis.Layer, i int) []any {
+	out := make([]any, len(l.Columns))
+	for k := range out {
+		out[k] = l.Value(i, k)
+	}
+	return out
 }
 
 // maxCellUTF16 is the most text a spreadsheet cell holds, in UTF-16 code

@@ -85,8 +85,8 @@ func sameFolder(a, b string) bool {
 func checkFinite(layers ...*gis.Layer) error {
 	for _, l := range layers {
 		for i, row := range l.Rows {
-			for j, v := range row.Values {
-				if x, ok := floatValue(v); ok && !finite(x) && j < len(l.Columns) {
+			for j := range row.Values {
+				if x, ok := floatValue(l.Value(i, j)); ok && !finite(x) && j < len(l.Columns) {
 					return nonFiniteError(l, i, l.Columns[j].Name, x)
 				}
 			}
