@@ -251,7 +251,7 @@ func newGGA(net *Network, o Options) *gga {
 		q: make([]float64, np), h: make([]float64, nn), demand: make([]float64, nn),
 		check: make([]bool, np), qStart: make([]float64, np), shut: make([]bool, np),
 	}
-	var xs, ys []float64
+	xs, ys := make([]float64, 0, nn), make([]float64, 0, nn)
 	for i, nd := range net.Nodes {
 		s.unknown[i] = -1
 		switch {
@@ -270,8 +270,9 @@ func newGGA(net *Network, o Options) *gga {
 	if s.nUnknown == 0 {
 		return s
 	}
-	var pairs [][2]int32
-	index := make(map[[2]int32]int32) // lookup only; pairs keep pipe order
+	// One pair per pipe between two unknowns: newSPD merges parallel pipes
+	// into one matrix entry (in pipe order, as their conductances add).
+	pairs := make([][2]int32, 0, np)
 	for j, p := range net.Pipes {
 		s.pair[j] = -1
 		if p.Closed || !s.supplied[p.From] || !s.supplied[p.To] {
@@ -295,14 +296,8 @@ func newGGA(net *Network, o Options) *gga {
 		if a < 0 || b < 0 {
 			continue
 		}
-		key := [2]int32{min(a, b), max(a, b)}
-		k, ok := index[key]
-		if !ok {
-			k = int32(len(pairs))
-			index[key] = k
-			pairs = append(pairs, key)
-		}
-		s.pair[j] = k
+		s.pair[j] = int32(len(pairs))
+		pairs = append(pairs, [2]int32{min(a, b), max(a, b)})
 	}
 	s.m = newSPD(s.nUnknown, pairs, xs, ys)
 	s.rhs = make([]float64, s.nUnknown)
