@@ -275,3 +275,40 @@ func spHelperSplits(m *spd) bool {
 	}
 	return false
 }
+
+// TestAssembleAtPermutedRows: assembling the head matrix at the diagonal
+// positions found once (gga.da, gga.db) gives the matrix of addDiag, which
+// looks each row up in the elimination order, to the bit.
+func TestAssembleAtPermutedRows(t *testing.T) {
+	net := streetGrid(40, 3, 2)
+	s, err := NewSolver(net, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := s.g
+	g.m.clear()
+	for j, ok := range g.solved {
+		if ok {
+			g.assemble(j, 1/float64(j+3))
+		}
+	}
+	got := slices.Clone(g.m.diag)
+	g.m.clear()
+	for j, ok := range g.solved {
+		if !ok {
+			continue
+		}
+		p := 1 / float64(j+3)
+		if a := g.ua[j]; a >= 0 {
+			g.m.addDiag(int(a), p)
+		}
+		if b := g.ub[j]; b >= 0 {
+			g.m.addDiag(int(b), p)
+		}
+	}
+	for k := range got {
+		if math.Float64bits(got[k]) != math.Float64bits(g.m.diag[k]) {
+			t.Fatalf("diagonal %d: %v, addDiag gives %v", k, got[k], g.m.diag[k])
+		}
+	}
+}
