@@ -210,6 +210,7 @@ type gga struct {
 	from   []int32   // pipe → From node (copied for locality in the loops)
 	to     []int32   // pipe → To node
 	ua, ub []int32   // pipe → row of its From and To node, or −1
+	da, db []int32   // pipe → position of ua, ub on the permuted diagonal of m (spd.pinv), or −1
 	pair   []int32   // pipe → index into pairs, or −1 when an end is not an unknown
 	r      []float64 // resistance, SI
 	q0     []float64 // zero-flow switch, m³/s
@@ -251,7 +252,7 @@ func newGGA(net *Network, o Options) *gga {
 		q: make([]float64, np), h: make([]float64, nn), demand: make([]float64, nn),
 		check: make([]bool, np), qStart: make([]float64, np), shut: make([]bool, np),
 	}
-	var xs, ys []float64
+	xs, ys := make([]float64, 0, nn), make([]float64, 0, nn)
 	for i, nd := range net.Nodes {
 		s.unknown[i] = -1
 		switch {
@@ -270,8 +271,9 @@ func newGGA(net *Network, o Options) *gga {
 	if s.nUnknown == 0 {
 		return s
 	}
-	var pairs [][2]int32
-	index := make(map[[2]int32]int32) // lookup only; pairs keep pipe order
+	// One pair per pipe between two unknowns: newSPD merges parallel pipes
+	// into one matrix entry (in pipe order, as their conductances add).
+	pairs := make([][2]int32, 0, np)
 	for j, p := range net.Pipes {
 		s.pair[j] = -1
 		if p.Closed || !s.supplied[p.From] || !s.supplied[p.To] {
@@ -295,16 +297,11 @@ func newGGA(net *Network, o Options) *gga {
 		if a < 0 || b < 0 {
 			continue
 		}
-		key := [2]int32{min(a, b), max(a, b)}
-		k, ok := index[key]
-		if !ok {
-			k = int32(len(pairs))
-			index[key] = k
-			pairs = append(pairs, key)
-		}
-		s.pair[j] = k
+		s.pair[j] = int32(len(pairs))
+		pairs = append(pairs, [2]int32{min(a, b), max(a, b)})
 	}
 	s.m = newSPD(s.nUnknown, pairs, xs, ys)
+	s.da, s.db = s.m.permutedRows(s.ua), s.m.permutedRows(s.ub)
 	s.rhs = make([]float64, s.nUnknown)
 	s.demand0 = append([]float64(nil), s.demand...)
 	return s
@@ -544,14 +541,15 @@ func (s *gga) step(refactor bool) error {
 	return nil
 }
 
-// assemble adds pipe j's conductance p to the head matrix.
+// assemble adds pipe j's conductance p to the head matrix (at the
+// diagonal positions found once, da and db: the same additions as addDiag,
+// one random access fewer per end).
 func (s *gga) assemble(j int, p float64) {
-	a, b := s.ua[j], s.ub[j]
-	if a >= 0 {
-		s.m.addDiag(int(a), p)
+	if a := s.da[j]; a >= 0 {
+		s.m.addPermutedDiag(a, p)
 	}
-	if b >= 0 {
-		s.m.addDiag(int(b), p)
+	if b := s.db[j]; b >= 0 {
+		s.m.addPermutedDiag(b, p)
 	}
 	if k := s.pair[j]; k >= 0 {
 		s.m.addPair(int(k), -p)

@@ -282,6 +282,23 @@ func (m *spd) clear() {
 // addDiag adds v to A[i][i] (caller's numbering).
 func (m *spd) addDiag(i int, v float64) { m.diag[m.pinv[i]] += v }
 
+// permutedRows returns, for each row in rows (caller's numbering, or −1),
+// its position in the elimination order (or −1), for addPermutedDiag.
+func (m *spd) permutedRows(rows []int32) []int32 {
+	out := make([]int32, len(rows))
+	for k, i := range rows {
+		out[k] = -1
+		if i >= 0 {
+			out[k] = m.pinv[i]
+		}
+	}
+	return out
+}
+
+// addPermutedDiag adds v to the diagonal at position k of the elimination
+// order: addDiag(perm[k], v).
+func (m *spd) addPermutedDiag(k int32, v float64) { m.diag[k] += v }
+
 // addPair adds v to A[i][j] and to A[j][i] for (i, j) = pairs[k]. O(1).
 func (m *spd) addPair(k int, v float64) {
 	if s := m.pairSlot[k]; s >= 0 {

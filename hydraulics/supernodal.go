@@ -1,6 +1,9 @@
 package hydraulics
 
-import "math"
+import (
+	"math"
+	"runtime"
+)
 
 // supernodes is the supernodal partition of L, computed once with the
 // symbolic factorisation and shared, read-only, by the clones of an spd.
@@ -30,18 +33,46 @@ type supernodes struct {
 	lowSlot  []int32
 
 	block int // largest t·w of a supernode: t rows (w diagonal and the rest below) by w columns
+
+	// The parallel plan (see planParallel): owner is the worker of each
+	// supernode, or −1 for the serial part; tasks[i] are worker i's
+	// subtrees, as ascending ranges [first, end) of supernodes. Both nil
+	// when the factorisation runs serially.
+	owner []int8
+	tasks [][][2]int32
 }
 
-// supernodeWork is one factorisation's workspace.
+// supernodeWork is one factorisation's workspace: the lists of updating
+// supernodes, shared by the workers, and each worker's dense workspace.
 type supernodeWork struct {
+	head []int32 // supernode → first updating supernode waiting for it, or −1
+	next []int32 // supernode → next in the list it waits in
+	ptr  []int32 // supernode → position in its row list of the first row not yet used
+	// dense[i] is worker i's; dense[0] also serves the serial part.
+	dense []denseWork
+}
+
+// denseWork is the workspace of one worker of a factorisation.
+type denseWork struct {
 	w    []float64 // the dense trapezoid of the supernode being factorised, column-major
 	rel  []int32   // row → its position in that trapezoid
 	relK []int32   // positions of an updating supernode's rows in the trapezoid
 	sum  []float64 // one column of an update from a supernode of several columns
-	head []int32   // supernode → first updating supernode waiting for it, or −1
-	next []int32   // supernode → next in the list it waits in
-	ptr  []int32   // supernode → position in its row list of the first row not yet used
+	sum2 []float64 // the next column, when two are summed at once
+	// In the parallel phase (see factorParallel), the moves of a supernode
+	// into the list of a supernode of the serial part, in the order made.
+	deferring bool
+	log       []listMove
+	// helper, when not nil, is the idle worker's workspace: the serial part
+	// of a parallel factorisation splits its large dense updates with it.
+	helper *denseWork
+	err    error // the worker's failure, at supernode errAt
+	errAt  int
 }
+
+// listMove records that, while supernode time was factorised, supernode s
+// was put at the head of target's list.
+type listMove struct{ time, s, target int32 }
 
 // findSupernodes partitions the columns of L into supernodes, merging
 // small ones into their parents (relaxed amalgamation, see relax), lays out
@@ -95,6 +126,7 @@ func (m *spd) findSupernodes() {
 		}
 	}
 	m.sn = sn
+	m.planParallel()
 }
 
 // Relaxed amalgamation (common practice in supernodal codes; the limits are
@@ -197,13 +229,16 @@ func (m *spd) fillPattern() {
 	}
 }
 
-// newSupernodeWork allocates the workspace of a factorisation.
+// newWork allocates the workspace of a factorisation: one dense workspace
+// per worker of the parallel plan (see planParallel), at least one.
 func (sn *supernodes) newWork(n int) supernodeWork {
 	ns := len(sn.first) - 1
-	return supernodeWork{
-		w: make([]float64, sn.block), rel: make([]int32, n), relK: make([]int32, n), sum: make([]float64, n),
-		head: make([]int32, ns), next: make([]int32, ns), ptr: make([]int32, ns),
+	wk := supernodeWork{head: make([]int32, ns), next: make([]int32, ns), ptr: make([]int32, ns)}
+	wk.dense = make([]denseWork, max(1, len(sn.tasks)))
+	for i := range wk.dense {
+		wk.dense[i] = denseWork{w: make([]float64, sn.block), rel: make([]int32, n), relK: make([]int32, n), sum: make([]float64, n), sum2: make([]float64, n)}
 	}
+	return wk
 }
 
 // factor computes the numeric factorisation P·A·Pᵀ = L·D·Lᵀ for the current
@@ -219,38 +254,68 @@ func (sn *supernodes) newWork(n int) supernodeWork {
 //
 //	d_c = W_cc,   l_ic = W_ic / d_c,   W_ij −= l_ic·d_c·l_jc   (i ≥ j > c).
 //
+// With a parallel plan and two or more processors, independent subtrees of
+// the elimination tree are factorised by two workers at once (see
+// factorParallel); the factor is the same to the bit either way.
+//
 // It returns *notPositiveDefiniteError when some d_k <= 1e-300 or is not
-// finite; the factor is then unusable until the next successful call.
+// finite (the first in column order); the factor is then unusable until
+// the next successful call.
 func (m *spd) factor() error {
-	sn, wk := m.sn, &m.snWork
+	if len(m.sn.tasks) > 1 && runtime.GOMAXPROCS(0) > 1 {
+		return m.factorParallel()
+	}
+	return m.factorSerial()
+}
+
+// factorSerial is factor's loop over the supernodes in column order.
+func (m *spd) factorSerial() error {
+	m.snWork.clearLists()
+	dw := &m.snWork.dense[0]
+	dw.deferring, dw.helper = false, nil
+	for s := 0; s+1 < len(m.sn.first); s++ {
+		if err := m.factorSupernode(dw, s); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// clearLists empties the lists of updating supernodes.
+func (wk *supernodeWork) clearLists() {
 	for s := range wk.head {
 		wk.head[s] = -1
 	}
-	for s := 0; s+1 < len(sn.first); s++ {
-		f, l := int(sn.first[s]), int(sn.first[s+1])-1
-		below := m.lRow[m.lStart[l]:m.lStart[l+1]]
-		width := l - f + 1
-		t := width + len(below)
-		w := wk.w[:t*width]
-		m.scatterA(f, l, below, t, w)
-		for k := wk.head[s]; k >= 0; {
-			nextK := wk.next[k]
-			m.updateFrom(int(k), l, t, w)
-			k = nextK
-		}
-		if err := m.factorBlock(f, width, t, w); err != nil {
-			return err
-		}
-		wk.ptr[s] = 0
-		m.waitFor(int32(s), below)
+}
+
+// factorSupernode forms and factorises the trapezoid of supernode s from A
+// and the supernodes waiting in its list, then puts s in the list of the
+// supernode of its first row below the block.
+func (m *spd) factorSupernode(dw *denseWork, s int) error {
+	sn, wk := m.sn, &m.snWork
+	f, l := int(sn.first[s]), int(sn.first[s+1])-1
+	below := m.lRow[m.lStart[l]:m.lStart[l+1]]
+	width := l - f + 1
+	t := width + len(below)
+	w := dw.w[:t*width]
+	m.scatterA(dw, f, l, below, t, w)
+	for k := wk.head[s]; k >= 0; {
+		nextK := wk.next[k]
+		m.updateFrom(dw, s, int(k), l, t, w)
+		k = nextK
 	}
+	if err := m.factorBlock(dw, f, width, t, w); err != nil {
+		return err
+	}
+	wk.ptr[s] = 0
+	m.waitFor(dw, s, int32(s), below)
 	return nil
 }
 
 // scatterA clears the trapezoid w of the supernode f..l (rows f..l, then
 // below) and adds the entries of A in its columns.
-func (m *spd) scatterA(f, l int, below []int32, t int, w []float64) {
-	sn, rel := m.sn, m.snWork.rel
+func (m *spd) scatterA(dw *denseWork, f, l int, below []int32, t int, w []float64) {
+	sn, rel := m.sn, dw.rel
 	clear(w)
 	for c := f; c <= l; c++ {
 		rel[c] = int32(c - f)
@@ -271,7 +336,7 @@ func (m *spd) scatterA(f, l int, below []int32, t int, w []float64) {
 // column l the contribution L[P, K]·D_K·L[Pc, K]ᵀ of the earlier supernode
 // k, where P are k's rows from its pointer on and Pc those of them ≤ l; then
 // it moves k's pointer past Pc and lets k wait for its next supernode.
-func (m *spd) updateFrom(k, l, t int, w []float64) {
+func (m *spd) updateFrom(dw *denseWork, time, k, l, t int, w []float64) {
 	sn, wk := m.sn, &m.snWork
 	fk, lk := int(sn.first[k]), int(sn.first[k+1])-1
 	rows := m.lRow[m.lStart[lk]:m.lStart[lk+1]]
@@ -280,17 +345,17 @@ func (m *spd) updateFrom(k, l, t int, w []float64) {
 	for p1 < len(rows) && int(rows[p1]) <= l {
 		p1++
 	}
-	rel := wk.relK[:len(rows)-p0]
+	rel := dw.relK[:len(rows)-p0]
 	for i, r := range rows[p0:] {
-		rel[i] = wk.rel[r]
+		rel[i] = dw.rel[r]
 	}
 	if fk == lk {
 		m.updateFromColumn(fk, lk, p0, p1, rel, t, w)
 	} else {
-		m.updateFromBlock(fk, lk, p0, p1, rel, t, w)
+		m.updateFromBlock(dw, fk, lk, p0, p1, rel, t, w)
 	}
 	wk.ptr[k] = int32(p1)
-	m.waitFor(int32(k), rows[p1:])
+	m.waitFor(dw, time, int32(k), rows[p1:])
 }
 
 // updateFromColumn is updateFrom for a supernode of one column c: for each
@@ -311,13 +376,51 @@ func (m *spd) updateFromColumn(c, lk, p0, p1 int, rel []int32, t int, w []float6
 // updateFromBlock is updateFrom for a supernode of several columns fk..lk:
 // each column a of the update, Σ_c l_Pc·d_c·l_ac, is summed in a dense
 // buffer over the columns c and then subtracted from W in one pass.
-func (m *spd) updateFromBlock(fk, lk, p0, p1 int, rel []int32, t int, w []float64) {
-	sum := m.snWork.sum[:len(rel)]
-	for a := 0; a < p1-p0; a++ {
+//
+// The columns c are taken four at a time (axpy4), which adds their terms to
+// each entry of the sum in the same order as one axpy per column would, so
+// the result is the same to the bit, with a quarter of the passes over it.
+func (m *spd) updateFromBlock(dw *denseWork, fk, lk, p0, p1 int, rel []int32, t int, w []float64) {
+	n := len(rel)
+	cols := p1 - p0
+	if h := dw.helper; h != nil && cols*n*(lk-fk+1) >= parallelGrain {
+		// The columns a of the update are independent: split them in two
+		// halves of equal work, column a costing n − a.
+		mid := splitTriangle(0, cols, n)
+		done := make(chan struct{})
+		go func() {
+			m.updateFromBlockCols(h.sum[:n], h.sum2[:n], fk, lk, p0, mid, cols, rel, t, w)
+			close(done)
+		}()
+		m.updateFromBlockCols(dw.sum[:n], dw.sum2[:n], fk, lk, p0, 0, mid, rel, t, w)
+		<-done
+		return
+	}
+	m.updateFromBlockCols(dw.sum[:n], dw.sum2[:n], fk, lk, p0, 0, cols, rel, t, w)
+}
+
+// updateFromBlockCols is updateFromBlock for the columns a0 ≤ a < a1 of
+// the update, with sum as its buffer.
+func (m *spd) updateFromBlockCols(sum, sum2 []float64, fk, lk, p0, a0, a1 int, rel []int32, t int, w []float64) {
+	n := len(rel)
+	colOf := func(c int) []float64 {
+		off := m.lStart[c] + (lk - c) + p0
+		return m.lVal[off : off+n]
+	}
+	a := a0
+	for ; a+1 < a1; a += 2 {
+		m.updateFromBlockPair(sum, sum2, fk, lk, p0, a, rel, t, w)
+	}
+	for ; a < a1; a++ {
 		clear(sum[a:])
-		for c := fk; c <= lk; c++ {
-			off := m.lStart[c] + (lk - c) + p0
-			v := m.lVal[off : off+len(rel)]
+		c := fk
+		for ; c+3 <= lk; c += 4 {
+			v0, v1, v2, v3 := colOf(c), colOf(c+1), colOf(c+2), colOf(c+3)
+			axpy4(sum[a:], v0[a:], v1[a:], v2[a:], v3[a:],
+				v0[a]*m.d[c], v1[a]*m.d[c+1], v2[a]*m.d[c+2], v3[a]*m.d[c+3])
+		}
+		for ; c <= lk; c++ {
+			v := colOf(c)
 			axpy(sum[a:], v[a:], v[a]*m.d[c])
 		}
 		col := w[int(rel[a])*t : int(rel[a]+1)*t]
@@ -327,38 +430,154 @@ func (m *spd) updateFromBlock(fk, lk, p0, p1 int, rel []int32, t int, w []float6
 	}
 }
 
+// updateFromBlockPair is updateFromBlockCols for the two columns a and
+// a+1, whose sums (in sum and sum2) share the loads of k's columns. Each
+// entry gets its terms in the order of the one-column loop.
+func (m *spd) updateFromBlockPair(sum, sum2 []float64, fk, lk, p0, a int, rel []int32, t int, w []float64) {
+	n := len(rel)
+	colOf := func(c int) []float64 {
+		off := m.lStart[c] + (lk - c) + p0
+		return m.lVal[off : off+n]
+	}
+	clear(sum[a:])
+	clear(sum2[a+1:])
+	c := fk
+	for ; c+3 <= lk; c += 4 {
+		v0, v1, v2, v3 := colOf(c), colOf(c+1), colOf(c+2), colOf(c+3)
+		d0, d1, d2, d3 := m.d[c], m.d[c+1], m.d[c+2], m.d[c+3]
+		s0, s1, s2, s3 := v0[a]*d0, v1[a]*d1, v2[a]*d2, v3[a]*d3
+		sum[a] = sum[a] + s0*v0[a] + s1*v1[a] + s2*v2[a] + s3*v3[a]
+		axpy4x2(sum[a+1:], sum2[a+1:], v0[a+1:], v1[a+1:], v2[a+1:], v3[a+1:],
+			[4]float64{s0, s1, s2, s3},
+			[4]float64{v0[a+1] * d0, v1[a+1] * d1, v2[a+1] * d2, v3[a+1] * d3})
+	}
+	for ; c <= lk; c++ {
+		v := colOf(c)
+		axpy(sum[a:], v[a:], v[a]*m.d[c])
+		axpy(sum2[a+1:], v[a+1:], v[a+1]*m.d[c])
+	}
+	col := w[int(rel[a])*t : int(rel[a]+1)*t]
+	for i := a; i < n; i++ {
+		col[rel[i]] -= sum[i]
+	}
+	col = w[int(rel[a+1])*t : int(rel[a+1]+1)*t]
+	for i := a + 1; i < n; i++ {
+		col[rel[i]] -= sum2[i]
+	}
+}
+
+// axpy4x2 is axpy4 into two sums at once with the same x: dstA gets the
+// multipliers sa, dstB those of sb, each entry in axpy4's order.
+func axpy4x2(dstA, dstB, x0, x1, x2, x3 []float64, sa, sb [4]float64) {
+	n := len(x0)
+	dstA, dstB, x1, x2, x3 = dstA[:n], dstB[:n], x1[:n], x2[:n], x3[:n]
+	a0, a1, a2, a3 := sa[0], sa[1], sa[2], sa[3]
+	b0, b1, b2, b3 := sb[0], sb[1], sb[2], sb[3]
+	for i := range dstA {
+		y0, y1, y2, y3 := x0[i], x1[i], x2[i], x3[i]
+		dstA[i] = dstA[i] + a0*y0 + a1*y1 + a2*y2 + a3*y3
+		dstB[i] = dstB[i] + b0*y0 + b1*y1 + b2*y2 + b3*y3
+	}
+}
+
+// splitTriangle returns k in [lo, hi] that halves Σ (n − i) over lo ≤ i < hi:
+// the split of a loop whose step i costs n − i.
+func splitTriangle(lo, hi, n int) int {
+	total := 0
+	for i := lo; i < hi; i++ {
+		total += n - i
+	}
+	acc := 0
+	for i := lo; i < hi; i++ {
+		if 2*acc >= total {
+			return i
+		}
+		acc += n - i
+	}
+	return hi
+}
+
 // waitFor puts supernode s in the list of the supernode of the first of
-// its remaining rows, if any.
-func (m *spd) waitFor(s int32, remaining []int32) {
+// its remaining rows, if any, while supernode time is factorised. In the
+// parallel phase a move into the list of a supernode of the serial part is
+// logged instead, for factorParallel to replay in column order.
+func (m *spd) waitFor(dw *denseWork, time int, s int32, remaining []int32) {
 	if len(remaining) == 0 {
 		return
 	}
 	wk := &m.snWork
 	target := m.sn.of[remaining[0]]
+	if dw.deferring && m.sn.owner[target] < 0 {
+		dw.log = append(dw.log, listMove{time: int32(time), s: s, target: target})
+		return
+	}
 	wk.next[s] = wk.head[target]
 	wk.head[target] = s
 }
 
 // factorBlock factorises the dense t×width trapezoid w of the supernode
 // starting at column f and stores its columns in L and D.
-func (m *spd) factorBlock(f, width, t int, w []float64) error {
-	for c := range width {
-		col := w[c*t : (c+1)*t]
-		dc := col[c]
-		if !(dc > pivotTiny) || math.IsInf(dc, 0) {
-			return &notPositiveDefiniteError{Row: int(m.perm[f+c]), Pivot: dc}
+//
+// The columns are taken in panels of four: the panel's own columns are
+// updated one after the other, then each later column receives the four
+// updates in one pass (axpy4), in the same order as column by column, so
+// the factor is the same to the bit.
+func (m *spd) factorBlock(dw *denseWork, f, width, t int, w []float64) error {
+	for c := 0; c < width; c += 4 {
+		end := min(c+4, width) // the panel is c..end−1
+		for cc := c; cc < end; cc++ {
+			col := w[cc*t : (cc+1)*t]
+			dc := col[cc]
+			if !(dc > pivotTiny) || math.IsInf(dc, 0) {
+				return &notPositiveDefiniteError{Row: int(m.perm[f+cc]), Pivot: dc}
+			}
+			m.d[f+cc] = dc
+			for c2 := cc + 1; c2 < end; c2++ {
+				axpy(w[c2*t+c2:(c2+1)*t], col[c2:], -col[c2]/dc)
+			}
 		}
-		m.d[f+c] = dc
-		for c2 := c + 1; c2 < width; c2++ {
-			axpy(w[c2*t+c2:(c2+1)*t], col[c2:], -col[c2]/dc)
+		if end < width { // then the panel has four columns
+			m.updateTrailing(dw, c, width, t, w)
 		}
-		inv := 1 / dc
-		dst := m.lVal[m.lStart[f+c]:m.lStart[f+c+1]]
-		for i, v := range col[c+1:] {
-			dst[i] = v * inv
+		for cc := c; cc < end; cc++ {
+			col := w[cc*t : (cc+1)*t]
+			inv := 1 / col[cc]
+			dst := m.lVal[m.lStart[f+cc]:m.lStart[f+cc+1]]
+			for i, v := range col[cc+1:] {
+				dst[i] = v * inv
+			}
 		}
 	}
 	return nil
+}
+
+// updateTrailing subtracts the panel of the four factorised columns c..c+3
+// of the trapezoid w from its columns c+4..width−1:
+// W[c2.., c2] −= Σ_k W[c2.., k]·W[c2, k]/d_k, k = c..c+3 in order.
+func (m *spd) updateTrailing(dw *denseWork, c, width, t int, w []float64) {
+	if dw.helper != nil && 4*(width-c-4)*(t-c-4) >= parallelGrain {
+		// The columns j are independent; column j costs t − j.
+		mid := splitTriangle(c+4, width, t)
+		done := make(chan struct{})
+		go func() {
+			m.updateTrailingCols(c, mid, width, t, w)
+			close(done)
+		}()
+		m.updateTrailingCols(c, c+4, mid, t, w)
+		<-done
+		return
+	}
+	m.updateTrailingCols(c, c+4, width, t, w)
+}
+
+// updateTrailingCols is updateTrailing for the columns j0 ≤ j < j1.
+func (m *spd) updateTrailingCols(c, j0, j1, t int, w []float64) {
+	c0, c1, c2, c3 := w[c*t:(c+1)*t], w[(c+1)*t:(c+2)*t], w[(c+2)*t:(c+3)*t], w[(c+3)*t:(c+4)*t]
+	d0, d1, d2, d3 := c0[c], c1[c+1], c2[c+2], c3[c+3]
+	for j := j0; j < j1; j++ {
+		axpy4(w[j*t+j:(j+1)*t], c0[j:], c1[j:], c2[j:], c3[j:],
+			-c0[j]/d0, -c1[j]/d1, -c2[j]/d2, -c3[j]/d3)
+	}
 }
 
 // axpy adds s·x to dst (len(dst) ≥ len(x)), four entries at a time.
@@ -374,5 +593,16 @@ func axpy(dst, x []float64, s float64) {
 	}
 	for ; i < len(x); i++ {
 		dst[i] += s * x[i]
+	}
+}
+
+// axpy4 adds s0·x0 + s1·x1 + s2·x2 + s3·x3 to dst (len(dst) ≥ len(x0), the
+// x of equal length), each entry as ((((dst + s0·x0) + s1·x1) + s2·x2) +
+// s3·x3): the same roundings as four axpy calls in that order.
+func axpy4(dst, x0, x1, x2, x3 []float64, s0, s1, s2, s3 float64) {
+	n := len(x0)
+	dst, x1, x2, x3 = dst[:n], x1[:n], x2[:n], x3[:n]
+	for i := range dst {
+		dst[i] = dst[i] + s0*x0[i] + s1*x1[i] + s2*x2[i] + s3*x3[i]
 	}
 }

@@ -345,7 +345,11 @@ type scenario struct {
 }
 
 // solveScenarios solves average day, max day and peak hour, each from its
-// peaking factor, and keeps peak hour as r.sol.
+// peaking factor, and keeps peak hour as r.sol. The three share one
+// hydraulics.Solver, so the ordering and symbolic factorisation of the head
+// matrix are done once: each scenario sets its source grades (ctlGrades)
+// and solves from a cold start with its factored demands, which is what a
+// Solve of the scenario's own network with its DemandFactor does.
 func (r *result) solveScenarios() error {
 	cfg := r.cfg
 	r.scenarios = []scenario{
@@ -353,27 +357,50 @@ func (r *result) solveScenarios() error {
 		{name: "max day", prefix: "max_day_", factor: cfg.Demands.MaxDayFactor},
 		{name: "peak hour", prefix: "", factor: cfg.Demands.PeakHourFactor},
 	}
+	solver, err := hydraulics.NewSolver(r.net, &hydraulics.Options{
+		Tolerance:     cfg.Solver.Tolerance,
+		MaxIterations: cfg.Solver.MaxIterations,
+	})
+	if err != nil {
+		return r.scenarioError(r.scenarios[0].name, err)
+	}
+	own := make([]hydraulics.Head, len(r.net.Nodes))
+	for i, n := range r.net.Nodes {
+		own[i] = n.Grade
+	}
+	demand := make([]hydraulics.Flow, len(r.net.Nodes))
 	for i := range r.scenarios {
 		sc := &r.scenarios[i]
-		sol, err := hydraulics.Solve(r.ctlNetwork(sc.name), &hydraulics.Options{
-			DemandFactor:  sc.factor,
-			Tolerance:     cfg.Solver.Tolerance,
-			MaxIterations: cfg.Solver.MaxIterations,
-		})
+		grades := r.ctlGrades(sc.name)
+		if grades == nil {
+			grades = own
+		}
+		if err := solver.SetGrades(grades); err != nil {
+			return r.scenarioError(sc.name, err)
+		}
+		for k, n := range r.net.Nodes {
+			demand[k] = hydraulics.Flow(float64(n.Demand) * sc.factor)
+		}
+		sol, err := solver.Solve(demand, nil)
 		if err != nil {
-			var nc *hydraulics.NotConvergedError
-			if errors.As(err, &nc) {
-				return solverError{r.notConverged(sc.name, nc)}
-			}
-			if errors.Is(err, hydraulics.ErrNoSupply) {
-				return solverError{r.noSupply()}
-			}
-			return solverError{fmt.Errorf("%s solve: %w", sc.name, err)}
+			return r.scenarioError(sc.name, err)
 		}
 		sc.sol = sol
 	}
 	r.sol = r.scenarios[len(r.scenarios)-1].sol
 	return nil
+}
+
+// scenarioError explains a failed scenario solve.
+func (r *result) scenarioError(name string, err error) error {
+	var nc *hydraulics.NotConvergedError
+	if errors.As(err, &nc) {
+		return solverError{r.notConverged(name, nc)}
+	}
+	if errors.Is(err, hydraulics.ErrNoSupply) {
+		return solverError{r.noSupply()}
+	}
+	return solverError{fmt.Errorf("%s solve: %w", name, err)}
 }
 
 // notConverged explains a failed solve in the run's units, naming the pipe
