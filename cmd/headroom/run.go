@@ -381,7 +381,7 @@ func (r *result) solveScenarios() error {
 		for k, n := range r.net.Nodes {
 			demand[k] = hydraulics.Flow(float64(n.Demand) * sc.factor)
 		}
-		sol, err := solver.Solve(demand, nil)
+		sol, err := solver.Solve(demand, scaledStart(r.scenarios[:i], sc.factor))
 		if err != nil {
 			return r.scenarioError(sc.name, err)
 		}
@@ -389,6 +389,28 @@ func (r *result) solveScenarios() error {
 	}
 	r.sol = r.scenarios[len(r.scenarios)-1].sol
 	return nil
+}
+
+// scaledStart is the warm start of a scenario of demand factor f after the
+// scenarios done: the last one's flows times f over its factor. With the
+// grades held, flows grow about in proportion to demand, so the Newton
+// iteration starts near its answer and needs fewer factorisations (at a
+// million pipes each costs about a second); nil for the first scenario.
+// The solution is the same to the solver's tolerance either way.
+func scaledStart(done []scenario, f float64) *hydraulics.Solution {
+	if len(done) == 0 {
+		return nil
+	}
+	last := done[len(done)-1]
+	if last.sol == nil || last.factor <= 0 {
+		return nil
+	}
+	k := f / last.factor
+	flow := make([]hydraulics.Flow, len(last.sol.Flow))
+	for j, q := range last.sol.Flow {
+		flow[j] = hydraulics.Flow(float64(q) * k)
+	}
+	return &hydraulics.Solution{Flow: flow}
 }
 
 // scenarioError explains a failed scenario solve.
