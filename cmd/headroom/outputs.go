@@ -45,6 +45,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	if err := checkOutFolder(dir, r.inputPaths, opt.allowInputFolder); err != nil {
 		return nil, err
 	}
+	tables := r.progress.begin("tables", "", 0)
 	pipes, nodes := r.pipeLayer(), r.nodeLayer()
 	ranked, problems := r.rankedLayer(pipes), r.problemLayer()
 	hydrants := r.hydrantOutput()
@@ -121,6 +122,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	if err := prepareOutDir(dir); err != nil {
 		return nil, err
 	}
+	tables.end("the output rows of every pipe, node and hydrant")
 	writing := r.progress.begin("writing", "files", len(outs))
 	for k := range outs {
 		write := outs[k].write

@@ -170,6 +170,7 @@ func analyse(in *inputs) (*result, error) {
 	snapping.end(fmt.Sprintf("%d nodes", len(topo.Nodes)))
 	r.problems = append(r.problems, probs...)
 
+	joining := r.progress.begin("joining", "", 0)
 	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
 	r.problems = append(r.problems, probs...)
 	if len(supplies) == 0 {
@@ -203,6 +204,7 @@ func analyse(in *inputs) (*result, error) {
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.inside, r.cFactor)
 	r.ctlPumps = gis.AddPumps(r.net, topo, r.sources, r.supplies)
 	r.parts = topo.Parts
+	joining.end("sources, demands, elevations and C-factors onto the network")
 
 	if err := readHydrants(in, r); err != nil {
 		return nil, err
