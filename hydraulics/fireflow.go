@@ -112,8 +112,9 @@ const (
 // step 2 starts from base (FireFlowFromBase) or, with FireFlowPredicted
 // (FireFlowAuto on networks of predictMinJunctions junctions or more),
 // from the flows a region model predicts with the fire flow drawn (see
-// firePredictor), which halves the factorisations of a search on large
-// grids; every point of the search is still a solve of the whole network.
+// firePredictor), which cuts the factorisations of a search from 6.6 to
+// 2.3 on the 130,000-pipe grid; every point of the search is still a solve
+// of the whole network.
 // Hydrants are divided among Workers, each with its own Solver clone;
 // every hydrant's search depends only on base, so the results, in the order
 // of hydrants, do not depend on Workers. s itself is not used for solving

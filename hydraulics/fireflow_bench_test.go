@@ -38,7 +38,8 @@ const (
 // same measure as BenchmarkSolve's pipes/s, so the two compare), with the
 // mean solves and Newton iterations per hydrant, and the region-model
 // solves of the predicted warm starts (FireFlowPredicted, which
-// FireFlowAuto picks at these sizes). The Solver and the base
+// FireFlowAuto picks from predictMinJunctions junctions on: on the
+// 317×317 grids, not on the 124×124 one). The Solver and the base
 // solution are made once, outside the timing, as a run makes them once for
 // all scenarios.
 func benchmarkFireFlow(b *testing.B, side, spacing int) {

@@ -29,11 +29,14 @@ const (
 	FireFlowPredicted
 )
 
-// predictMinJunctions is the size from which FireFlowAuto predicts: below
-// it a search's whole-network solves cost little more than the
-// prediction (the demo town's 684 hydrants on about 2,000 junctions take a
-// few seconds), and the reference method is kept.
-const predictMinJunctions = 5000
+// predictMinJunctions is the size from which FireFlowAuto predicts. The
+// prediction pays where its region is a small share of the network:
+// measured (CPU time of BenchmarkFireFlow100k and BenchmarkFireFlow20k,
+// every hydrant searched both ways), on 100,000 junctions it saves a third
+// of a sweep's CPU time, on 15,000 it costs a fifth more than it saves.
+// Below the threshold, the demo town included, the reference method is
+// kept.
+const predictMinJunctions = 50000
 
 // The prediction (see firePredictor).
 const (
@@ -68,9 +71,12 @@ const (
 //     X̂ inside R and Q₀_j − X̂·p_j·(g_from − g_to) outside.
 //
 // Measured on the benchmark grids (fireflow_bench_test.go) the search
-// then needs about 3.5 factorisations per hydrant instead of 6.9: its
-// first pinned solve converges from the prediction in two or three Newton
-// iterations instead of five. The model's own root is not reported: the
+// then needs 2.3 factorisations per hydrant instead of 6.6 on 130,000
+// pipes and 3.3 instead of 6.6 on 20,000: its first pinned solve converges
+// from the prediction in two or three Newton iterations instead of five.
+// The region's own solves (about four per hydrant, on up to
+// predictRegionJunctions junctions) are the price; see
+// predictMinJunctions for where it pays. The model's own root is not reported: the
 // coupling at R's boundary is one-way (the linear far field does not see
 // the region's extra losses), which leaves its root up to about 10 gpm off
 // on grids with 7,000-gpm fire flows.

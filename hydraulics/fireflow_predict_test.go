@@ -210,21 +210,31 @@ func TestFireFlowPredictedDeterministic(t *testing.T) {
 }
 
 // TestFireFlowAutoMethod: FireFlowAuto predicts from predictMinJunctions
-// junctions on and starts from base below: fireGrid(70) has 4,900 nodes of
-// which 25 are tanks, fireGrid(71) 5,041 with 25 tanks.
+// junctions on and starts from base below: fireGrid(224) has 50,176 nodes
+// of which 225 are tanks (one per 15×15 block), fireGrid(225) 50,625 with
+// 225 tanks.
 func TestFireFlowAutoMethod(t *testing.T) {
+	if testing.Short() {
+		t.Skip("orders two 50,000-junction grids")
+	}
 	for _, tc := range []struct {
-		side int
-		want bool
-	}{{70, false}, {71, true}} {
+		side       int
+		junctions  int
+		predicting bool
+	}{{224, 50176 - 225, false}, {225, 50625 - 225, true}} {
 		net, _ := fireGrid(tc.side)
 		s, err := NewSolver(net, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
-		want := s.g.nUnknown >= predictMinJunctions
-		if got := usePrediction(s.g, FireFlowAuto); got != want || want != tc.want {
-			t.Errorf("side %d (%d junctions): predicts %v, want %v", tc.side, s.g.nUnknown, got, tc.want)
+		if s.g.nUnknown != tc.junctions {
+			t.Fatalf("side %d: %d junctions, want %d", tc.side, s.g.nUnknown, tc.junctions)
+		}
+		if got := usePrediction(s.g, FireFlowAuto); got != tc.predicting {
+			t.Errorf("side %d (%d junctions): predicts %v, want %v", tc.side, s.g.nUnknown, got, tc.predicting)
+		}
+		if usePrediction(s.g, FireFlowFromBase) || !usePrediction(s.g, FireFlowPredicted) {
+			t.Errorf("side %d: the explicit methods are not kept", tc.side)
 		}
 	}
 }
