@@ -30,6 +30,9 @@ type FireFlowOptions struct {
 	// Searched, when not nil, is called once after each hydrant's search,
 	// from the worker that did it: it must be safe for concurrent use.
 	Searched func()
+	// Method selects the warm start of each search; the zero value,
+	// FireFlowAuto, picks by the network's size (see FireFlowMethod).
+	Method FireFlowMethod
 }
 
 // FireFlowResult is the available fire flow at one hydrant.
@@ -51,6 +54,9 @@ type FireFlowResult struct {
 	// Iterations the Newton iterations of those solves and Factorisations
 	// the iterations among them that factorised the head matrix.
 	Solves, Iterations, Factorisations int
+	// RegionSolves is the number of solves of the region model that
+	// predicted the first solve's warm start (FireFlowPredicted).
+	RegionSolves int
 	// Err is set when the hydrant is not a supplied junction or a solve
 	// failed; the other fields are then not to be reported.
 	Err error
@@ -102,7 +108,13 @@ const (
 //     with a bisection safeguard).
 //
 // Each search solve warm-starts from flows predicted, linearly in Q, from
-// the hydrant's earlier solves (see warmFlows).
+// the hydrant's earlier solves (see warmFlows). The first pinned solve of
+// step 2 starts from base (FireFlowFromBase) or, with FireFlowPredicted
+// (FireFlowAuto on networks of predictMinJunctions junctions or more),
+// from the flows a region model predicts with the fire flow drawn (see
+// firePredictor), which cuts the factorisations of a search from 6.6 to
+// 2.3 on the 130,000-pipe grid; every point of the search is still a solve
+// of the whole network.
 // Hydrants are divided among Workers, each with its own Solver clone;
 // every hydrant's search depends only on base, so the results, in the order
 // of hydrants, do not depend on Workers. s itself is not used for solving
@@ -147,6 +159,12 @@ func FireFlow(s *Solver, demand []Flow, base *Solution, hydrants []int, opt Fire
 		return fail(errors.New("hydraulics: fire flow: base solution does not match the network"))
 	}
 	workers := min(o.Workers, len(hydrants))
+	predict := !cold && usePrediction(s.g, o.Method)
+	var adj *pipeAdjacency
+	var checked map[int][]int
+	if predict {
+		adj, checked = newPipeAdjacency(s.g), checkedJunctions(s.g, o.Zone)
+	}
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	for range workers {
@@ -155,12 +173,19 @@ func FireFlow(s *Solver, demand []Flow, base *Solution, hydrants []int, opt Fire
 			defer wg.Done()
 			f := &fireSearch{s: s.Clone(), opt: o, base: base, cold: cold,
 				demand: make([]Flow, len(background)), background: background}
+			search := f.run
+			if predict {
+				// Without the base factorisation the search starts from base.
+				if p, err := newFirePredictor(s, f, base, adj, checked); err == nil {
+					search = p.run
+				}
+			}
 			for {
 				k := int(next.Add(1) - 1)
 				if k >= len(hydrants) {
 					return
 				}
-				results[k] = f.run(hydrants[k])
+				results[k] = search(hydrants[k])
 				if o.Searched != nil {
 					o.Searched()
 				}
@@ -210,6 +235,7 @@ type fireSearch struct {
 	demand     []Flow // background plus the trial flow at the hydrant
 
 	hydrant        int
+	start          *Solution // warm start of the first pinned solve, when not base
 	warm           *Solution // buffer of the predicted warm-start flows
 	solves         int
 	iterations     int
@@ -345,6 +371,9 @@ func (f *fireSearch) pinned(h int, zero firePoint) (firePoint, bool) {
 	g := f.s.g
 	copy(f.demand, f.background)
 	warm := f.base
+	if f.start != nil {
+		warm = f.start
+	}
 	if f.cold {
 		warm = nil
 	}

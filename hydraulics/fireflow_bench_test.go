@@ -36,7 +36,10 @@ const (
 // spacing-th junction is a hydrant. It reports hydrants/s, solves/s and
 // pipes/s, the pipes of the network times the solves done per second (the
 // same measure as BenchmarkSolve's pipes/s, so the two compare), with the
-// mean solves and Newton iterations per hydrant. The Solver and the base
+// mean solves and Newton iterations per hydrant, and the region-model
+// solves of the predicted warm starts (FireFlowPredicted, which
+// FireFlowAuto picks from predictMinJunctions junctions on: on the
+// 317×317 grids, not on the 124×124 one). The Solver and the base
 // solution are made once, outside the timing, as a run makes them once for
 // all scenarios.
 func benchmarkFireFlow(b *testing.B, side, spacing int) {
@@ -56,7 +59,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 		}
 	}
 	b.ReportAllocs()
-	solves, iterations, factorisations := 0, 0, 0
+	solves, iterations, factorisations, regionSolves := 0, 0, 0, 0
 	for b.Loop() {
 		for _, r := range FireFlow(s, nil, base, hydrants, FireFlowOptions{Zone: zone}) {
 			if r.Err != nil {
@@ -65,6 +68,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 			solves += r.Solves
 			iterations += r.Iterations
 			factorisations += r.Factorisations
+			regionSolves += r.RegionSolves
 		}
 	}
 	sec := b.Elapsed().Seconds()
@@ -75,6 +79,7 @@ func benchmarkFireFlow(b *testing.B, side, spacing int) {
 	b.ReportMetric(float64(solves)/float64(len(hydrants)*b.N), "solves/hydrant")
 	b.ReportMetric(float64(iterations)/float64(solves), "iters/solve")
 	b.ReportMetric(float64(factorisations)/float64(len(hydrants)*b.N), "factors/hydrant")
+	b.ReportMetric(float64(regionSolves)/float64(len(hydrants)*b.N), "region-solves/hydrant")
 }
 
 // BenchmarkFireFlow20k: about 20,000 pipes (124×124 grid), every 10th
@@ -87,3 +92,9 @@ func BenchmarkFireFlow20k(b *testing.B) { benchmarkFireFlow(b, 124, 10) }
 // take hours; the rates it reports are per hydrant and per solve, from which
 // the time of a full sweep follows.
 func BenchmarkFireFlow100k(b *testing.B) { benchmarkFireFlow(b, 317, 1000) }
+
+// BenchmarkFireFlow100k20k: the sweep of issue 9's scale, about 130,000
+// pipes (317×317 grid) with every 5th junction a hydrant (about 20,000).
+// A full run takes a long time (tens of minutes on two cores); its rates
+// are per hydrant, as BenchmarkFireFlow100k's.
+func BenchmarkFireFlow100k20k(b *testing.B) { benchmarkFireFlow(b, 317, 5) }

@@ -92,17 +92,9 @@ func (r *result) fireFlow() error {
 			}
 		}
 	}
-	// The search brackets the available flow to 1 gpm, so each re-solve
-	// stops at a relative flow change of fireTolerance rather than the
-	// scenarios' tighter one.
-	solver, err := hydraulics.NewSolver(r.net, &hydraulics.Options{
-		DemandFactor: cfg.Demands.MaxDayFactor, Tolerance: fireTolerance, MaxIterations: cfg.Solver.MaxIterations,
-	})
+	solver, err := r.fireSolver()
 	if err != nil {
-		return solverError{fmt.Errorf("fire flow: %w", err)}
-	}
-	if err := r.ctlSetFireGrades(solver); err != nil {
-		return solverError{fmt.Errorf("fire flow: %w", err)}
+		return err
 	}
 	var nodes []int
 	var which []int // index into r.hydrants of each searched node
@@ -122,8 +114,8 @@ func (r *result) fireFlow() error {
 		}
 	}
 	sweep := r.progress.begin("fire-flow sweep", "hydrants", len(nodes))
-	opt := hydraulics.FireFlowOptions{Residual: hydraulics.Pressure(cfg.si(cfg.fireResidual())), Zone: r.nodeZones(),
-		Searched: func() { sweep.add(1) }}
+	opt := r.fireOptions()
+	opt.Searched = func() { sweep.add(1) }
 	results := hydraulics.FireFlow(solver, nil, r.ctlFireBase(), nodes, opt)
 	sweep.end("")
 	for k, res := range results {
@@ -136,6 +128,30 @@ func (r *result) fireFlow() error {
 	}
 	r.chargeShortfalls(solver)
 	return nil
+}
+
+// fireSolver is the Solver of the sweep: max-day demands, the fire grades
+// (controls.go). The search brackets the available flow to 1 gpm, so each
+// re-solve stops at a relative flow change of fireTolerance rather than
+// the scenarios' tighter one.
+func (r *result) fireSolver() (*hydraulics.Solver, error) {
+	cfg := r.cfg
+	solver, err := hydraulics.NewSolver(r.net, &hydraulics.Options{
+		DemandFactor: cfg.Demands.MaxDayFactor, Tolerance: fireTolerance, MaxIterations: cfg.Solver.MaxIterations,
+	})
+	if err != nil {
+		return nil, solverError{fmt.Errorf("fire flow: %w", err)}
+	}
+	if err := r.ctlSetFireGrades(solver); err != nil {
+		return nil, solverError{fmt.Errorf("fire flow: %w", err)}
+	}
+	return solver, nil
+}
+
+// fireOptions are the sweep's options: the configured residual, the zones
+// and the default method (hydraulics.FireFlowAuto).
+func (r *result) fireOptions() hydraulics.FireFlowOptions {
+	return hydraulics.FireFlowOptions{Residual: hydraulics.Pressure(r.cfg.si(r.cfg.fireResidual())), Zone: r.nodeZones()}
 }
 
 // maxDay is the max-day solution, the background of fire flow.

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"math"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -80,4 +81,63 @@ func atoi(t *testing.T, s string) int {
 		n = n*10 + int(c-'0')
 	}
 	return n
+}
+
+// TestDemoFireFlowPredicted: on the demo town, whose network is below the
+// size at which hydraulics.FireFlowAuto predicts warm starts, the run's
+// sweep is the reference search from the max-day solution (so the golden
+// files do not move), and the predicted start, forced, agrees with it as
+// the search promises: available flows within the 1-gpm tolerance of each
+// other (each is within it below the root), the same limiting junction at
+// every hydrant.
+func TestDemoFireFlowPredicted(t *testing.T) {
+	in, err := builtInDemo()
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := analyse(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	solver, err := r.fireSolver()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var nodes []int
+	var runs []*hydraulics.FireFlowResult
+	for _, h := range r.hydrants {
+		if h.res != nil {
+			nodes, runs = append(nodes, h.Node), append(runs, h.res)
+		}
+	}
+	if len(nodes) == 0 {
+		t.Fatal("no hydrant has a result")
+	}
+	opt := r.fireOptions()
+	opt.Method = hydraulics.FireFlowFromBase
+	ref := hydraulics.FireFlow(solver, nil, r.ctlFireBase(), nodes, opt)
+	opt.Method = hydraulics.FireFlowPredicted
+	pred := hydraulics.FireFlow(solver, nil, r.ctlFireBase(), nodes, opt)
+	tol := 1.0 // gpm, hydraulics' default tolerance
+	predicted := 0
+	for k, node := range nodes {
+		run, e, p := runs[k], ref[k], pred[k]
+		if e.Err != nil || p.Err != nil {
+			t.Fatalf("node %s: errors %v, %v", r.net.Nodes[node].ID, e.Err, p.Err)
+		}
+		if run.Available != e.Available || run.Limiting != e.Limiting {
+			t.Errorf("node %s: the run found %.3f gpm (limit %d), the reference search %.3f gpm (%d)",
+				r.net.Nodes[node].ID, run.Available.GPM(), run.Limiting, e.Available.GPM(), e.Limiting)
+		}
+		if p.RegionSolves > 0 {
+			predicted++
+		}
+		if d := math.Abs((p.Available - e.Available).GPM()); d > tol+1e-9 || p.Limiting != e.Limiting || p.AtCeiling != e.AtCeiling {
+			t.Errorf("node %s: predicted start %.3f gpm (limit %d), from max day %.3f gpm (%d)",
+				r.net.Nodes[node].ID, p.Available.GPM(), p.Limiting, e.Available.GPM(), e.Limiting)
+		}
+	}
+	if predicted == 0 {
+		t.Error("no search started from a prediction")
+	}
 }
