@@ -6,8 +6,10 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strings"
+	"sync"
 
 	"github.com/paulmach/orb"
 
@@ -301,12 +303,26 @@ func (r *result) pipeLayer() *gis.Layer {
 	cols := r.pipeColumns()
 	index := columnPositions(cols)
 	l := &gis.Layer{Name: "pipes", Columns: cols, Rows: make([]gis.Row, len(r.pipes))}
-	for i, p := range r.pipes {
-		v := rowValues{index: index, vals: make([]any, len(cols))}
-		r.pipeValues(i, p, s, v)
-		l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: v.vals}
-	}
+	inChunks(len(r.pipes), func(lo, hi int) { // rows are independent: each chunk fills its own
+		for i := lo; i < hi; i++ {
+			p := r.pipes[i]
+			v := rowValues{index: index, vals: make([]any, len(cols))}
+			r.pipeValues(i, p, s, v)
+			l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: v.vals}
+		}
+	})
 	return l
+}
+
+// inChunks calls body on GOMAXPROCS consecutive ranges covering [0, n) at
+// once (one call when n is under 8,192); body writes only its own range.
+func inChunks(n int, body func(lo, hi int)) {
+	workers := min(runtime.GOMAXPROCS(0), max(1, n/8192))
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() { body(n*w/workers, n*(w+1)/workers) })
+	}
+	wg.Wait()
 }
 
 // columnPositions maps each column's name to its position.

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"reflect"
+	"runtime"
 	"testing"
 
 	"headroom/gis"
@@ -89,3 +91,39 @@ func benchmarkStages(b *testing.B, n int) {
 func BenchmarkStages10k(b *testing.B)  { benchmarkStages(b, 10_000) }
 func BenchmarkStages100k(b *testing.B) { benchmarkStages(b, 100_000) }
 func BenchmarkStages1M(b *testing.B)   { benchmarkStages(b, 1_000_000) }
+
+// TestPipeLayerInChunks: the pipe layer built in parallel chunks is the one
+// built in a single pass (GOMAXPROCS 1), value for value, on a town large
+// enough to split. With -race it also checks the chunks share nothing they
+// write.
+func TestPipeLayerInChunks(t *testing.T) {
+	if testing.Short() {
+		t.Skip("analyses a 20,000-pipe town")
+	}
+	dir := t.TempDir()
+	if err := demoCommand([]string{"--out", dir, "--pipes", "20000"}, io.Discard, io.Discard); err != nil {
+		t.Fatal(err)
+	}
+	cfg, err := loadConfig(filepath.Join(dir, demoConfigName))
+	if err != nil {
+		t.Fatal(err)
+	}
+	off := false
+	cfg.FireFlow.Enabled, cfg.Upsizing.Enabled = &off, &off
+	r, err := analyse(&inputs{cfg: cfg, title: cfg.file})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(r.pipes) < 2*8192 {
+		t.Fatalf("%d pipes: too few to split in two chunks", len(r.pipes))
+	}
+	parallel := r.pipeLayer()
+	prev := runtime.GOMAXPROCS(1)
+	serial := r.pipeLayer()
+	runtime.GOMAXPROCS(prev)
+	for i := range serial.Rows {
+		if !reflect.DeepEqual(parallel.Rows[i], serial.Rows[i]) {
+			t.Fatalf("row %d differs:\n%v\n%v", i, parallel.Rows[i].Values, serial.Rows[i].Values)
+		}
+	}
+}
