@@ -260,15 +260,14 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		return r
 	}
 	f.hydrant, f.solves, f.iterations, f.factorisations = h, 0, 0, 0
-	lo := f.point(0, f.base)
-	var hi firePoint
-	haveHi := false
+	tol, ceiling := float64(f.opt.Tolerance), float64(f.opt.Ceiling)
+	b := newFireBracket(f.point(0, f.base), tol, ceiling)
 	finish := func(err error) FireFlowResult {
-		r.Available = Flow(lo.q)
-		r.Residual = pressureAt(g.net, lo.sol, h)
-		r.Limiting = lo.worst
-		if haveHi {
-			r.Limiting = hi.worst
+		r.Available = Flow(b.lo.q)
+		r.Residual = pressureAt(g.net, b.lo.sol, h)
+		r.Limiting = b.lo.worst
+		if b.haveHi {
+			r.Limiting = b.hi.worst
 		}
 		r.Solves, r.Iterations, r.Factorisations = f.solves, f.iterations, f.factorisations
 		if err != nil {
@@ -276,77 +275,104 @@ func (f *fireSearch) run(h int) FireFlowResult {
 		}
 		return r
 	}
-	if lo.f < 0 {
+	if b.lo.f < 0 {
 		return finish(nil)
 	}
-	tol, ceiling := float64(f.opt.Tolerance), float64(f.opt.Ceiling)
-	prev := lo // the feasible point below lo, for extrapolation
 	x := min(float64(fireTestFlow), ceiling)
-	if cand, ok := f.pinned(h, lo); ok {
+	if cand, ok := f.pinned(h, b.lo); ok {
 		// The estimate is one end of the bracket; the first trial, 0.45·Tolerance
 		// beyond it, is meant to be the other.
 		switch {
 		case cand.q >= ceiling && cand.f >= 0:
-			lo, r.AtCeiling = cand, true
+			b.lo, r.AtCeiling = cand, true
 			return finish(nil)
 		case cand.q >= ceiling:
 			x = ceiling
 		case cand.f >= 0:
-			prev, lo = lo, cand
+			b.prev, b.lo = b.lo, cand
 			x = min(ceiling, cand.q+0.45*tol)
 		default:
-			hi, haveHi = cand, true
-			x = max(lo.q+0.45*tol, cand.q-0.45*tol)
-			if x >= hi.q {
-				x = (lo.q + hi.q) / 2
+			b.hi, b.haveHi = cand, true
+			x = max(b.lo.q+0.45*tol, cand.q-0.45*tol)
+			if x >= b.hi.q {
+				x = (b.lo.q + b.hi.q) / 2
 			}
 		}
 	}
-	lastSide, sameSide := 0, 0
 	for {
 		if f.solves >= maxFireSolves {
-			return finish(fmt.Errorf("bracket still %g gpm wide after %d solves", Flow(hi.q-lo.q).GPM(), f.solves))
+			return finish(fmt.Errorf("bracket still %g gpm wide after %d solves", Flow(b.hi.q-b.lo.q).GPM(), f.solves))
 		}
-		p, err := f.trial(x, prev, lo, hi, haveHi)
+		p, err := f.trial(x, b.prev, b.lo, b.hi, b.haveHi)
 		if err != nil {
 			return finish(err)
 		}
-		side := 1
-		if p.f >= 0 {
-			prev, lo, side = lo, p, -1
-		} else {
-			hi, haveHi = p, true
-		}
-		if side == lastSide {
-			sameSide++
-		} else {
-			lastSide, sameSide = side, 1
-		}
-		if !haveHi {
-			if lo.q >= ceiling {
-				r.AtCeiling = true
-				return finish(nil)
-			}
-			// Extrapolate from the two highest feasible points; grow by at
-			// least half when the pressure has not fallen.
-			est := rootInU(prev, lo)
-			if !(est > lo.q) {
-				est = 1.5 * lo.q
-			}
-			x = min(ceiling, max(est+0.45*tol, lo.q+tol))
-			continue
-		}
-		width := hi.q - lo.q
-		if width <= tol {
+		b.add(p)
+		var done bool
+		if x, done = b.next(); done {
+			r.AtCeiling = !b.haveHi
 			return finish(nil)
 		}
-		d := 0.45 * tol
-		x = rootInU(lo, hi)
-		if sameSide >= 3 || !(x > lo.q && x < hi.q) {
-			x = lo.q + width/2
-		}
-		x = min(max(x, lo.q+d), hi.q-d)
 	}
+}
+
+// fireBracket is the state of one root search on the residual margin f(Q)
+// (FireFlow, steps 3–4): lo the highest feasible point (f ≥ 0), prev the
+// feasible point below it, hi the lowest infeasible one once found, and how
+// many trials in a row moved the same end.
+type fireBracket struct {
+	prev, lo, hi       firePoint
+	haveHi             bool
+	lastSide, sameSide int
+	tol, ceiling       float64 // m³/s
+}
+
+func newFireBracket(zero firePoint, tol, ceiling float64) *fireBracket {
+	return &fireBracket{prev: zero, lo: zero, tol: tol, ceiling: ceiling}
+}
+
+// add takes trial point p as the new lo (feasible) or hi (not).
+func (b *fireBracket) add(p firePoint) {
+	side := 1
+	if p.f >= 0 {
+		b.prev, b.lo, side = b.lo, p, -1
+	} else {
+		b.hi, b.haveHi = p, true
+	}
+	if side == b.lastSide {
+		b.sameSide++
+	} else {
+		b.lastSide, b.sameSide = side, 1
+	}
+}
+
+// next returns the next trial flow, or done: the bracket is narrower than
+// tol, or no infeasible point is known and lo has reached the ceiling.
+// Without hi it extrapolates from prev and lo in u = Q^1.852 (growing by at
+// least half when the pressure has not fallen); with it, regula falsi in u
+// kept 0.45·tol inside the bracket, bisection after three moves of one end.
+func (b *fireBracket) next() (x float64, done bool) {
+	lo, hi, tol := b.lo, b.hi, b.tol
+	if !b.haveHi {
+		if lo.q >= b.ceiling {
+			return 0, true
+		}
+		est := rootInU(b.prev, lo)
+		if !(est > lo.q) {
+			est = 1.5 * lo.q
+		}
+		return min(b.ceiling, max(est+0.45*tol, lo.q+tol)), false
+	}
+	width := hi.q - lo.q
+	if width <= tol {
+		return 0, true
+	}
+	d := 0.45 * tol
+	x = rootInU(lo, hi)
+	if b.sameSide >= 3 || !(x > lo.q && x < hi.q) {
+		x = lo.q + width/2
+	}
+	return min(max(x, lo.q+d), hi.q-d), false
 }
 
 // count adds one solve, and the iterations and factorisations of sol (nil

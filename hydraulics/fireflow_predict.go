@@ -458,48 +458,21 @@ func (p *firePredictor) model(q float64) (firePoint, error) {
 // after three moves of one end) until the bracket is narrower than tol. It
 // returns the infeasible end (the feasible one at the ceiling).
 func (p *firePredictor) bracket(zero firePoint, guess, tol, ceiling float64) (firePoint, error) {
-	lo, prev := zero, zero
-	var hi firePoint
-	haveHi := false
+	b := newFireBracket(zero, tol, ceiling)
 	x := min(max(guess, tol), ceiling)
-	lastSide, sameSide := 0, 0
 	for range maxFireSolves {
 		pt, err := p.model(x)
 		if err != nil {
 			return pt, err
 		}
-		side := 1
-		if pt.f >= 0 {
-			prev, lo, side = lo, pt, -1
-		} else {
-			hi, haveHi = pt, true
-		}
-		if side == lastSide {
-			sameSide++
-		} else {
-			lastSide, sameSide = side, 1
-		}
-		if !haveHi {
-			if lo.q >= ceiling {
-				return lo, nil
+		b.add(pt)
+		var done bool
+		if x, done = b.next(); done {
+			if !b.haveHi {
+				return b.lo, nil
 			}
-			est := rootInU(prev, lo)
-			if !(est > lo.q) {
-				est = 1.5 * lo.q
-			}
-			x = min(ceiling, max(est+0.45*tol, lo.q+tol))
-			continue
+			return b.hi, nil
 		}
-		width := hi.q - lo.q
-		if width <= tol {
-			return hi, nil
-		}
-		d := 0.45 * tol
-		x = rootInU(lo, hi)
-		if sameSide >= 3 || !(x > lo.q && x < hi.q) {
-			x = lo.q + width/2
-		}
-		x = min(max(x, lo.q+d), hi.q-d)
 	}
-	return hi, fmt.Errorf("hydraulics: fire flow: region model bracket still %g gpm wide", Flow(hi.q-lo.q).GPM())
+	return b.hi, fmt.Errorf("hydraulics: fire flow: region model bracket still %g gpm wide", Flow(b.hi.q-b.lo.q).GPM())
 }
