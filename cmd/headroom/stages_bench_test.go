@@ -81,6 +81,11 @@ func benchmarkStages(b *testing.B, n int) {
 		c := *r
 		return c.progRun(in)
 	})
+	stage("tables", func() error {
+		r.pipeLayer()
+		r.nodeLayer()
+		return nil
+	})
 	out := b.TempDir()
 	stage("write", func() error {
 		_, err := writeOutputs(out, r, writeOptions{})
