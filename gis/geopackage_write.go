@@ -105,11 +105,6 @@ type gpkgPlan struct {
 // last_change of every table is written as 1970-01-01T00:00:00.000Z.
 func WriteGeoPackage(path string, srs SpatialRef, layers ...*Layer) error {
 	file := filepath.Base(path)
-	for _, l := range layers {
-		if l.Order != nil {
-			return errOrdered(l)
-		}
-	}
 	srsRows, err := gpkgSRSRows(srs)
 	if err != nil {
 		return &FieldError{File: file, Err: err}
@@ -223,7 +218,9 @@ func gpkgKind(g orb.Geometry) (name, multi string, ok bool) {
 func gpkgLayerType(file string, l *Layer) (string, bool, error) {
 	first, firstMulti := "", ""
 	mixedKind, mixedMulti := false, false
-	for i, r := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		if r.Geometry == nil {
 			continue
 		}
@@ -395,12 +392,14 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 	}
 	ins := gpkgInserter{tx: tx, head: "INSERT INTO " + t + " (" + strings.Join(names, ", ") + ") VALUES ", columns: len(names)}
 	defer ins.close()
-	boxes := make([]orb.Bound, len(l.Rows))
-	has := make([]bool, len(l.Rows))
+	n, rd := l.Len(), l.Reader()
+	boxes := make([]orb.Bound, n)
+	has := make([]bool, n)
 	var extent orb.Bound
 	haveExtent := false
 	var blobs []byte // the chunk's geometries, end to end
-	for i, r := range l.Rows {
+	for i := range n {
+		r := rd.Row(i)
 		if len(r.Values) != len(l.Columns) {
 			return &FieldError{File: file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
 		}

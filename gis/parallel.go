@@ -11,8 +11,11 @@ const minChunk = 1024
 // forChunks calls body on consecutive ranges [lo, hi) covering [0, n), one
 // goroutine per range, with as many ranges as GOMAXPROCS (a single call
 // when n is small). body must write only to its own range's results.
-func forChunks(n int, body func(lo, hi int)) {
-	workers := min(runtime.GOMAXPROCS(0), (n+minChunk-1)/minChunk)
+func forChunks(n int, body func(lo, hi int)) { forChunksOf(n, minChunk, body) }
+
+// forChunksOf is forChunks with least items to a goroutine.
+func forChunksOf(n, least int, body func(lo, hi int)) {
+	workers := min(runtime.GOMAXPROCS(0), (n+least-1)/least)
 	if workers <= 1 {
 		body(0, n)
 		return

@@ -57,9 +57,6 @@ var dbfWriteDate = [3]byte{100, 1, 1}
 // names the code page. Field names are laundered like GDAL's (see
 // shpLaunderNames) and returned, one per column, in column order.
 func WriteShapefile(path string, l *Layer, prj string) ([]ShapefileField, error) {
-	if l.Order != nil {
-		return nil, errOrdered(l)
-	}
 	stem, ext := path, filepath.Ext(path)
 	if strings.EqualFold(ext, ".shp") {
 		stem = strings.TrimSuffix(path, ext)
@@ -70,7 +67,9 @@ func WriteShapefile(path string, l *Layer, prj string) ([]ShapefileField, error)
 		}
 		return stem + e
 	}
-	for i, r := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		if len(r.Values) != len(l.Columns) {
 			return nil, fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
 		}
@@ -115,8 +114,10 @@ type shpRecords struct {
 
 // shpPlan chooses the shape type and measures every record.
 func shpPlan(l *Layer) (*shpRecords, error) {
-	p := &shpRecords{shapeType: shpNull, lengths: make([]int64, len(l.Rows)), total: shpHeaderSize}
-	for i, r := range l.Rows {
+	p := &shpRecords{shapeType: shpNull, lengths: make([]int64, l.Len()), total: shpHeaderSize}
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		t := shpNull
 		switch g := r.Geometry.(type) {
 		case nil:
@@ -206,7 +207,9 @@ func shpAppendFloat(b []byte, v float64) []byte {
 func shpWriteMain(w io.Writer, l *Layer, p *shpRecords) error {
 	bw := bufio.NewWriterSize(w, 1<<20)
 	b := shpAppendHeader(make([]byte, 0, 4096), p.total, p)
-	for i, r := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		b = binary.BigEndian.AppendUint32(b, uint32(i+1))
 		b = binary.BigEndian.AppendUint32(b, uint32(p.lengths[i]/2))
 		parts, n := shpParts(r.Geometry)
@@ -306,7 +309,9 @@ func dbfPlan(l *Layer) ([]dbfColumn, []ShapefileField, error) {
 		names[j] = ShapefileField{Short: short[j], Full: c.Name}
 		col := dbfColumn{field: DBFField{Name: short[j]}, fixed: c.Decimals}
 		allBool, seen := true, false
-		for _, r := range l.Rows {
+		rd := l.Reader()
+		for i := range l.Len() {
+			r := rd.Row(i)
 			if v := r.Values[j]; v != nil {
 				seen = true
 				if _, ok := v.(bool); !ok {
@@ -319,7 +324,9 @@ func dbfPlan(l *Layer) ([]dbfColumn, []ShapefileField, error) {
 			col.field.Type, col.field.Length = 'L', 1
 		case c.Kind == String:
 			col.field.Type, col.field.Length = 'C', 1
-			for _, r := range l.Rows {
+			rd := l.Reader()
+			for i := range l.Len() {
+				r := rd.Row(i)
 				s, isNull, err := formatValue(nil, c, r.Values[j])
 				if err != nil {
 					return nil, nil, fmt.Errorf("gis: layer %q column %q: %w", l.Name, c.Name, err)
@@ -339,7 +346,9 @@ func dbfPlan(l *Layer) ([]dbfColumn, []ShapefileField, error) {
 				col.field.Decimals = max(c.Decimals, 0)
 			}
 			maxFrac := 0
-			for i, r := range l.Rows {
+			rd := l.Reader()
+			for i := range l.Len() {
+				r := rd.Row(i)
 				s, err := dbfNumber(nil, c, r.Values[j])
 				if err != nil {
 					return nil, nil, fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
@@ -445,7 +454,7 @@ func dbfWrite(w io.Writer, l *Layer, plan []dbfColumn) error {
 	h := make([]byte, dbfHeaderSize, headerLen)
 	h[0] = 0x03 // dBASE III without memo
 	copy(h[1:4], dbfWriteDate[:])
-	binary.LittleEndian.PutUint32(h[4:8], uint32(len(l.Rows)))
+	binary.LittleEndian.PutUint32(h[4:8], uint32(l.Len()))
 	binary.LittleEndian.PutUint16(h[8:10], uint16(headerLen))
 	binary.LittleEndian.PutUint16(h[10:12], uint16(recordLen))
 	// h[29], the LDID, stays 0: the .cpg names the code page.
@@ -463,7 +472,9 @@ func dbfWrite(w io.Writer, l *Layer, plan []dbfColumn) error {
 	}
 	rec := make([]byte, 0, recordLen)
 	var val []byte
-	for i, r := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		rec = append(rec[:0], ' ')
 		for j, c := range plan {
 			col := l.Columns[j]

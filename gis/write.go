@@ -57,31 +57,16 @@ type Row struct {
 	Values   []any
 }
 
-// Layer is a neutral table of features, written as GeoJSON or CSV.
+// Layer is a neutral table of features, written as GeoJSON, CSV,
+// GeoPackage or shapefile. A small layer lists its Rows; a large one is
+// packed column by column (PackLayer) or is a view of another (View), and
+// then Rows is nil. The writers read every layer through Len and Reader.
 type Layer struct {
 	Name    string
 	Columns []Column
 	Rows    []Row
-	// Order, when set, says where each column's value is in a row: column k
-	// is Values[Order[k]]. It lets a layer list the rows of another in its
-	// own column order without copying them (a million rows of 70 values
-	// would take a gigabyte). Only WriteCSV reads it; the other writers
-	// refuse a layer that has one.
-	Order []int
-}
-
-// Value is row i's value in column k, through Order when it is set.
-func (l *Layer) Value(i, k int) any {
-	if l.Order != nil {
-		return l.Rows[i].Values[l.Order[k]]
-	}
-	return l.Rows[i].Values[k]
-}
-
-// errOrdered is what the writers other than WriteCSV say of a layer with
-// an Order.
-func errOrdered(l *Layer) error {
-	return fmt.Errorf("gis: layer %q has a column order; only WriteCSV writes it", l.Name)
+	packed  *packedRows
+	view    *layerView
 }
 
 // WriteGeoJSON writes l as an RFC 7946 FeatureCollection, atomically, one
@@ -90,9 +75,6 @@ func errOrdered(l *Layer) error {
 // layer's Name becomes the foreign member "name". The same layer gives the
 // same bytes.
 func WriteGeoJSON(path string, l *Layer) error {
-	if l.Order != nil {
-		return errOrdered(l)
-	}
 	return WriteFileAtomic(path, func(w io.Writer) error {
 		bw := bufio.NewWriterSize(w, 1<<20)
 		buf := make([]byte, 0, 4096)
@@ -106,7 +88,9 @@ func WriteGeoJSON(path string, l *Layer) error {
 		for j, c := range l.Columns {
 			keys[j] = appendJSONString(nil, c.Name)
 		}
-		for i, r := range l.Rows {
+		rd, n := l.Reader(), l.Len()
+		for i := range n {
+			r := rd.Row(i)
 			if len(r.Values) != len(l.Columns) {
 				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
 			}
@@ -128,7 +112,7 @@ func WriteGeoJSON(path string, l *Layer) error {
 				return fmt.Errorf("gis: layer %q row %d: %w", l.Name, i+1, err)
 			}
 			buf = append(buf, '}')
-			if i < len(l.Rows)-1 {
+			if i < n-1 {
 				buf = append(buf, ',')
 			}
 			buf = append(buf, '\n')
@@ -177,12 +161,14 @@ func writeCSV(w io.Writer, l *Layer) error {
 		return err
 	}
 	var buf []byte
-	for i, r := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		r := rd.Row(i)
 		if len(r.Values) != len(l.Columns) {
 			return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
 		}
 		for j, c := range l.Columns {
-			v := l.Value(i, j)
+			v := r.Values[j]
 			if s, ok := v.(string); ok {
 				rec[j] = formulaSafe(s)
 				continue

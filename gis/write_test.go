@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"io"
 	"math"
 	"os"
@@ -422,34 +423,110 @@ func FuzzWriteCSVText(f *testing.F) {
 	})
 }
 
-// TestLayerOrder: a layer with an Order writes to CSV the same bytes as a
-// layer holding its rows copied in that order, and the writers that cannot
-// follow an Order refuse it rather than mislabel columns.
-func TestLayerOrder(t *testing.T) {
-	cols := []Column{{Name: "id", Kind: String}, {Name: "x", Kind: Real, Decimals: 2}, {Name: "rank", Kind: Integer}}
-	rows := []Row{{Values: []any{"A", 1.5, 2}}, {Values: []any{"B", nil, 1}}}
-	ordered := &Layer{Name: "t", Columns: []Column{cols[2], cols[0], cols[1]}, Rows: rows, Order: []int{2, 0, 1}}
-	copied := &Layer{Name: "t", Columns: ordered.Columns, Rows: []Row{{Values: []any{2, "A", 1.5}}, {Values: []any{1, "B", nil}}}}
+// TestPackedAndViewLayers: a packed layer (PackLayer) and views of it
+// (View: rows picked and reordered, columns reordered, geometry changed)
+// write to CSV, GeoJSON, GeoPackage and shapefile the same bytes as plain
+// layers holding the same rows copied, value types included. The rows span
+// three chunks; one column changes type within a chunk (int, then
+// float64, then int64), which packs it as mixed values; the ids are too
+// many to number and are kept as strings, the grades are numbered.
+func TestPackedAndViewLayers(t *testing.T) {
+	cols := []Column{{Name: "id", Kind: String}, {Name: "x", Kind: Real, Decimals: 2},
+		{Name: "rank", Kind: Integer}, {Name: "n", Kind: Real, Decimals: 1}, {Name: "ok", Kind: String},
+		{Name: "grade", Kind: String}}
+	n := 2*packedChunkRows + 100
+	row := func(i int) Row {
+		v := []any{fmt.Sprintf("P%05d", i), float64(i) / 3, n - i, nil, nil, []any{"A", "B", nil}[i%3]}
+		switch {
+		case i%7 == 0:
+			v[1] = nil // nulls among floats
+		case i == packedChunkRows+5:
+			v[0] = nil
+		}
+		switch {
+		case i > packedChunkRows+10 && i%2 == 0:
+			v[3] = float64(i) + 0.25
+		case i > packedChunkRows+10:
+			v[3] = int64(i)
+		case i%3 == 0:
+			v[3] = i
+		}
+		if i%5 != 0 {
+			v[4] = i%2 == 0
+		}
+		return Row{Geometry: orb.LineString{{float64(i) / 1000, 1}, {float64(i)/1000 + 0.001, 1.001}}, Values: v}
+	}
+	plain := &Layer{Name: "t", Columns: cols}
+	for i := range n {
+		plain.Rows = append(plain.Rows, row(i))
+	}
+	packed := PackLayer("t", cols, n, func(i int, v []any) orb.Geometry {
+		r := row(i)
+		copy(v, r.Values)
+		return r.Geometry
+	})
+	if packed.Len() != n || packed.Rows != nil {
+		t.Fatalf("packed layer: %d rows, Rows %v", packed.Len(), packed.Rows != nil)
+	}
+	rd := packed.Reader()
+	for i := range n {
+		if got := rd.Row(i); !reflect.DeepEqual(got, plain.Rows[i]) {
+			t.Fatalf("packed row %d = %#v, want %#v", i, got, plain.Rows[i])
+		}
+	}
+	compareWrites(t, "packed", packed, plain)
+
+	picked := []int{5, 0, n - 1, packedChunkRows, 7}
+	order := []int{2, 0, 1, 3, 4, 5}
+	shift := func(g orb.Geometry) orb.Geometry {
+		ls := g.(orb.LineString)
+		return orb.LineString{{ls[0][0] + 1, ls[0][1]}, {ls[1][0] + 1, ls[1][1]}}
+	}
+	view := packed.View("t", picked, order, shift)
+	copied := &Layer{Name: "t", Columns: []Column{cols[2], cols[0], cols[1], cols[3], cols[4], cols[5]}}
+	for _, i := range picked {
+		r := row(i)
+		v := make([]any, len(order))
+		for k, at := range order {
+			v[k] = r.Values[at]
+		}
+		copied.Rows = append(copied.Rows, Row{Geometry: shift(r.Geometry), Values: v})
+	}
+	compareWrites(t, "view", view, copied)
+	compareWrites(t, "view of all rows", plain.View("t", nil, nil, nil), plain)
+}
+
+// compareWrites writes a and b in every format and fails unless each pair
+// of files is byte-identical.
+func compareWrites(t *testing.T, what string, a, b *Layer) {
+	t.Helper()
 	dir := t.TempDir()
-	a, b := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
-	if err := WriteCSV(a, ordered); err != nil {
-		t.Fatal(err)
+	for _, side := range []struct {
+		name string
+		l    *Layer
+	}{{"a", a}, {"b", b}} {
+		p := filepath.Join(dir, side.name)
+		if err := WriteCSV(p+".csv", side.l); err != nil {
+			t.Fatal(err)
+		}
+		if err := WriteGeoJSON(p+".geojson", side.l); err != nil {
+			t.Fatal(err)
+		}
+		if err := WriteGeoPackage(p+".gpkg", SpatialRef{ID: 4326}, side.l); err != nil {
+			t.Fatal(err)
+		}
+		if _, err := WriteShapefile(p+".shp", side.l, ""); err != nil {
+			t.Fatal(err)
+		}
 	}
-	if err := WriteCSV(b, copied); err != nil {
-		t.Fatal(err)
-	}
-	ga, _ := os.ReadFile(a)
-	gb, _ := os.ReadFile(b)
-	if string(ga) != string(gb) || !strings.HasPrefix(string(ga), "rank,id,x\n2,A,1.50\n") {
-		t.Fatalf("ordered CSV\n%s\ncopied CSV\n%s", ga, gb)
-	}
-	if err := WriteGeoJSON(filepath.Join(dir, "c.geojson"), ordered); err == nil {
-		t.Error("WriteGeoJSON wrote a layer with an Order")
-	}
-	if _, err := WriteShapefile(filepath.Join(dir, "c.shp"), ordered, ""); err == nil {
-		t.Error("WriteShapefile wrote a layer with an Order")
-	}
-	if err := WriteGeoPackage(filepath.Join(dir, "c.gpkg"), SpatialRef{ID: 4326}, ordered); err == nil {
-		t.Error("WriteGeoPackage wrote a layer with an Order")
+	for _, ext := range []string{".csv", ".geojson", ".gpkg", ".shp", ".shx", ".dbf"} {
+		ga, errA := os.ReadFile(filepath.Join(dir, "a"+ext))
+		gb, errB := os.ReadFile(filepath.Join(dir, "b"+ext))
+		if errA != nil || errB != nil {
+			t.Fatalf("%s %s: %v %v", what, ext, errA, errB)
+		}
+		if !bytes.Equal(ga, gb) {
+			t.Errorf("%s: %s differs from the plain layer's (%d and %d bytes)", what, ext, len(ga), len(gb))
+		}
 	}
 }

@@ -98,9 +98,9 @@ func (r *result) accounts() []layerAccount {
 
 	// AllocateDemands places every usable demand on its nearest junction;
 	// only a network with no junction (every node a source) takes none.
-	demands := layerAccount{path: cfg.Demands.Path, in: len(r.demands), noun: "points", verb: "allocated", where: "problems.csv"}
+	demands := layerAccount{path: cfg.Demands.Path, in: r.demandCount.read, noun: "points", verb: "allocated", where: "problems.csv"}
 	if len(r.net.Nodes) > len(r.supplies) {
-		demands.used = countUsable(r.demands)
+		demands.used = r.demandCount.usable
 	}
 	if r.areas != nil {
 		r.areaAccount(&demands)
@@ -112,20 +112,24 @@ func (r *result) accounts() []layerAccount {
 	}
 	demands.extra = fmt.Sprintf("%.1f %s average day", s.Flow(avg), s.FlowLabel())
 
-	elev := layerAccount{path: cfg.Elevations.Path, in: len(r.elevations), noun: "spot heights",
-		used: countUsable(r.elevations), verb: "used", where: "problems.csv"}
+	elev := layerAccount{path: cfg.Elevations.Path, in: r.elevationCount.read, noun: "spot heights",
+		used: r.elevationCount.usable, verb: "used", where: "problems.csv"}
 	elev.leftOut = elev.in - elev.used
 	return []layerAccount{pipes, sources, demands, elev}
 }
 
-func countUsable(pts []gis.Point) int {
-	n := 0
+// pointCount is how many points a layer gave and how many were usable.
+type pointCount struct{ read, usable int }
+
+// countPoints counts pts and the usable ones.
+func countPoints(pts []gis.Point) pointCount {
+	c := pointCount{read: len(pts)}
 	for _, p := range pts {
 		if p.Usable {
-			n++
+			c.usable++
 		}
 	}
-	return n
+	return c
 }
 
 // maxListed is how many problems a fatal message lists.

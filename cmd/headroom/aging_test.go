@@ -111,7 +111,7 @@ func ageColumn(t *testing.T, l *gis.Layer, i int, name string) any {
 	t.Helper()
 	for k, c := range l.Columns {
 		if c.Name == name {
-			return l.Rows[i].Values[k]
+			return l.Reader().Row(i).Values[k]
 		}
 	}
 	t.Fatalf("pipes layer has no column %s", name)

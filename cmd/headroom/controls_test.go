@@ -280,7 +280,7 @@ func TestCtlCheckValve(t *testing.T) {
 					continue
 				}
 				want := map[string]string{"CV": "check valve", "open": "open"}[c.status]
-				if got := layer.Rows[i].Values[status]; got != want {
+				if got := layerRows(layer)[i].Values[status]; got != want {
 					t.Errorf("status column %v, want %q", got, want)
 				}
 			}

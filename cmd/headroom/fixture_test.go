@@ -2,10 +2,13 @@ package main
 
 import (
 	"path/filepath"
+	"slices"
 	"sync"
 	"testing"
 
 	"github.com/paulmach/orb/geojson"
+
+	"headroom/gis"
 )
 
 // demoAnalysed is the built-in demo run, analysed once for the tests that
@@ -53,4 +56,15 @@ func writeCollections(t *testing.T, dir string, layers map[string]*geojson.Featu
 		}
 		writeFile(t, filepath.Join(dir, name), string(b))
 	}
+}
+
+// layerRows copies every row of l, packed or a view, into a slice.
+func layerRows(l *gis.Layer) []gis.Row {
+	rows := make([]gis.Row, l.Len())
+	rd := l.Reader()
+	for i := range rows {
+		r := rd.Row(i)
+		rows[i] = gis.Row{Geometry: r.Geometry, Values: slices.Clone(r.Values)}
+	}
+	return rows
 }

@@ -6,10 +6,8 @@ import (
 	"io"
 	"math"
 	"path/filepath"
-	"runtime"
 	"slices"
 	"strings"
-	"sync"
 
 	"github.com/paulmach/orb"
 
@@ -51,7 +49,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 	pipes, nodes := r.pipeLayer(), r.nodeLayer()
 	ranked, problems := r.rankedLayer(pipes), r.problemLayer()
 	hydrants := r.hydrantOutput()
-	if err := checkFinite(pipes, nodes, ranked, problems, hydrants); err != nil {
+	if err := checkFinite(pipes, nodes, problems, hydrants); err != nil { // ranked is a view of pipes
 		return nil, err
 	}
 	fire := r.cfg.fireFlowOn()
@@ -141,17 +139,14 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 }
 
 // projected returns l with its lon/lat geometry in the pipe layer's
-// coordinate system, for the GeoPackage and shapefile outputs.
+// coordinate system, for the GeoPackage and shapefile outputs: a view that
+// transforms each row's geometry as it is written.
 func (r *result) projected(l *gis.Layer) *gis.Layer {
 	crs := r.pipeLayerCRS
 	if crs.Geographic() {
 		return l
 	}
-	out := &gis.Layer{Name: l.Name, Columns: l.Columns, Rows: make([]gis.Row, len(l.Rows))}
-	for i, row := range l.Rows {
-		out.Rows[i] = gis.Row{Geometry: gis.TransformGeometry(row.Geometry, crs.Forward), Values: row.Values}
-	}
-	return out
+	return l.View(l.Name, nil, nil, func(g orb.Geometry) orb.Geometry { return gis.TransformGeometry(g, crs.Forward) })
 }
 
 // oneShapeType returns l with every geometry that is not of the layer's
@@ -168,14 +163,12 @@ func oneShapeType(l *gis.Layer) *gis.Layer {
 		}
 		return false
 	}
-	out := &gis.Layer{Name: l.Name, Columns: l.Columns, Rows: make([]gis.Row, len(l.Rows))}
-	for i, row := range l.Rows {
-		out.Rows[i] = row
-		if !keep(row.Geometry) {
-			out.Rows[i].Geometry = nil
+	return l.View(l.Name, nil, nil, func(g orb.Geometry) orb.Geometry {
+		if keep(g) {
+			return g
 		}
-	}
-	return out
+		return nil
+	})
 }
 
 // userSRSID numbers a spatial reference with no EPSG code, in the range the
@@ -298,31 +291,17 @@ func (r *result) otherScenarios() []scenario {
 }
 
 // pipeLayer has one row per input pipe, in input order: nothing is lost.
+// It is packed column by column (gis.PackLayer): at a million pipes, rows
+// of boxed values would hold a gigabyte through the writing.
 func (r *result) pipeLayer() *gis.Layer {
 	s := r.cfg.system()
 	cols := r.pipeColumns()
 	index := columnPositions(cols)
-	l := &gis.Layer{Name: "pipes", Columns: cols, Rows: make([]gis.Row, len(r.pipes))}
-	inChunks(len(r.pipes), func(lo, hi int) { // rows are independent: each chunk fills its own
-		for i := lo; i < hi; i++ {
-			p := r.pipes[i]
-			v := rowValues{index: index, vals: make([]any, len(cols))}
-			r.pipeValues(i, p, s, v)
-			l.Rows[i] = gis.Row{Geometry: p.Geometry, Values: v.vals}
-		}
+	return gis.PackLayer("pipes", cols, len(r.pipes), func(i int, vals []any) orb.Geometry {
+		p := r.pipes[i]
+		r.pipeValues(i, p, s, rowValues{index: index, vals: vals})
+		return p.Geometry
 	})
-	return l
-}
-
-// inChunks calls body on GOMAXPROCS consecutive ranges covering [0, n) at
-// once (one call when n is under 8,192); body writes only its own range.
-func inChunks(n int, body func(lo, hi int)) {
-	workers := min(runtime.GOMAXPROCS(0), max(1, n/8192))
-	var wg sync.WaitGroup
-	for w := range workers {
-		wg.Go(func() { body(n*w/workers, n*(w+1)/workers) })
-	}
-	wg.Wait()
 }
 
 // columnPositions maps each column's name to its position.
@@ -410,27 +389,22 @@ func (r *result) pipeValues(i int, p gis.Pipe, s hydraulics.System, v rowValues)
 	}
 }
 
-// rankedLayer is the scored rows of the pipe layer, rank 1 first.
+// rankedLayer is the scored rows of the pipe layer, rank 1 first, with
+// the rank as its first column: a view of the pipe layer, not a copy.
 func (r *result) rankedLayer(pipes *gis.Layer) *gis.Layer {
-	l := &gis.Layer{Name: "ranked"}
+	var rows []int
 	for i, sc := range r.scores {
 		if sc.Scored {
-			l.Rows = append(l.Rows, gis.Row{Values: pipes.Rows[i].Values}) // shared, not copied
+			rows = append(rows, i)
 		}
 	}
-	slices.SortStableFunc(l.Rows, func(a, b gis.Row) int {
-		return cmp.Compare(a.Values[2].(int), b.Values[2].(int))
-	})
+	slices.SortStableFunc(rows, func(a, b int) int { return cmp.Compare(r.scores[a].Rank, r.scores[b].Rank) })
 	// rank first, as a reader of a ranked list expects
-	l.Order = append([]int{2, 0, 1}, make([]int, len(pipes.Columns)-3)...)
-	for k := 3; k < len(l.Order); k++ {
-		l.Order[k] = k
+	order := append([]int{2, 0, 1}, make([]int, len(pipes.Columns)-3)...)
+	for k := 3; k < len(order); k++ {
+		order[k] = k
 	}
-	l.Columns = make([]gis.Column, len(pipes.Columns))
-	for k, at := range l.Order {
-		l.Columns[k] = pipes.Columns[at]
-	}
-	return l
+	return pipes.View("ranked", rows, order, func(orb.Geometry) orb.Geometry { return nil })
 }
 
 // nodeLayer has one row per node with its head and pressure: the plain
@@ -458,37 +432,47 @@ func (r *result) nodeLayer() *gis.Layer {
 	for _, sp := range r.supplies {
 		sourceOf[sp.Node] = r.sources[sp.Source].ID
 	}
-	for i, n := range r.net.Nodes {
-		kind, factor := "junction", r.cfg.Demands.PeakHourFactor
-		if n.Fixed {
-			kind, factor = "source", 0
+	ncols := len(layer.Columns)
+	return gis.PackLayer(layer.Name, layer.Columns, len(r.net.Nodes), func(i int, vals []any) orb.Geometry {
+		got := r.nodeValues(i, s, sourceOf, vals[:0])
+		if len(got) != ncols { // a programming error: columns and values are made together
+			panic(fmt.Sprintf("nodeLayer: %d values for %d columns", len(got), ncols))
 		}
-		var head, pres, below any
-		if h := r.sol.Head[i]; !math.IsNaN(float64(h)) {
-			head = s.Head(h)
-			pres = s.Pressure(hydraulics.NodePressure(n, h))
-			below = "no"
-			if r.belowMin[i] {
-				below = "yes"
-			}
-		}
-		var src any
-		if id, ok := sourceOf[i]; ok {
-			src = id
-		}
-		vals := []any{n.ID, kind, src, s.Length(n.Elevation), s.Flow(n.Demand * hydraulics.Flow(factor)),
-			s.Flow(n.Demand), head, pres, below}
-		for _, sc := range r.otherScenarios() {
-			var head, pres any
-			if h := sc.sol.Head[i]; !math.IsNaN(float64(h)) {
-				head, pres = s.Head(h), s.Pressure(hydraulics.NodePressure(n, h))
-			}
-			vals = append(vals, head, pres)
-		}
-		vals = append(vals, r.cureNodeValues(i)...) // pressure_after_psi (upsize.go)
-		layer.Rows = append(layer.Rows, gis.Row{Geometry: r.topo.Nodes[i].At, Values: vals})
+		copy(vals, got)
+		return r.topo.Nodes[i].At
+	})
+}
+
+// nodeValues appends node i's values in the node layer's column order.
+func (r *result) nodeValues(i int, s hydraulics.System, sourceOf map[int]string, vals []any) []any {
+	n := r.net.Nodes[i]
+	kind, factor := "junction", r.cfg.Demands.PeakHourFactor
+	if n.Fixed {
+		kind, factor = "source", 0
 	}
-	return layer
+	var head, pres, below any
+	if h := r.sol.Head[i]; !math.IsNaN(float64(h)) {
+		head = s.Head(h)
+		pres = s.Pressure(hydraulics.NodePressure(n, h))
+		below = "no"
+		if r.belowMin[i] {
+			below = "yes"
+		}
+	}
+	var src any
+	if id, ok := sourceOf[i]; ok {
+		src = id
+	}
+	vals = append(vals, n.ID, kind, src, s.Length(n.Elevation), s.Flow(n.Demand*hydraulics.Flow(factor)),
+		s.Flow(n.Demand), head, pres, below)
+	for _, sc := range r.otherScenarios() {
+		var head, pres any
+		if h := sc.sol.Head[i]; !math.IsNaN(float64(h)) {
+			head, pres = s.Head(h), s.Pressure(hydraulics.NodePressure(n, h))
+		}
+		vals = append(vals, head, pres)
+	}
+	return append(vals, r.cureNodeValues(i)...) // pressure_after_psi (upsize.go)
 }
 
 // problemLayer lists every input problem found, in the order found.

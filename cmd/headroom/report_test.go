@@ -348,7 +348,7 @@ func TestReportWithoutFireFlow(t *testing.T) {
 func TestReportMapDrawsTheWorstFirst(t *testing.T) {
 	r := demoResult(t)
 	pipes := r.pipeLayer()
-	cols := layerColumns(pipes)
+	cols, pipeRows := layerColumns(pipes), layerRows(pipes)
 	inProject := 0
 	for i := range r.pipes {
 		if r.prog.projectOf[i] >= 0 {
@@ -365,7 +365,7 @@ func TestReportMapDrawsTheWorstFirst(t *testing.T) {
 	for _, i := range drawn {
 		kept[i] = true
 		if r.prog.projectOf[i] < 0 {
-			v, _ := cell(cols, pipes.Rows[i], "priority").(float64)
+			v, _ := cell(cols, pipeRows[i], "priority").(float64)
 			lowestKept = min(lowestKept, v)
 		}
 	}
@@ -373,12 +373,12 @@ func TestReportMapDrawsTheWorstFirst(t *testing.T) {
 		if r.prog.projectOf[i] >= 0 && !kept[i] {
 			t.Fatalf("main %s is in a project but not drawn", r.pipes[i].ID)
 		}
-		if v, ok := cell(cols, pipes.Rows[i], "priority").(float64); ok && !kept[i] && r.scores[i].Scored && v > lowestKept {
+		if v, ok := cell(cols, pipeRows[i], "priority").(float64); ok && !kept[i] && r.scores[i].Scored && v > lowestKept {
 			t.Fatalf("main %s (priority %g) left out while one of %g is drawn", r.pipes[i].ID, v, lowestKept)
 		}
 	}
-	if all := r.mapMainsDrawn(pipes, cols, "priority", len(pipes.Rows)); len(all) != len(pipes.Rows) {
-		t.Fatalf("at the limit the map drew %d of %d mains", len(all), len(pipes.Rows))
+	if all := r.mapMainsDrawn(pipes, cols, "priority", pipes.Len()); len(all) != pipes.Len() {
+		t.Fatalf("at the limit the map drew %d of %d mains", len(all), pipes.Len())
 	}
 	hyd := r.hydrantOutput()
 	hs := mapHydrants(hyd, newMapProjection(pipes), r.cfg.system())
@@ -422,17 +422,17 @@ func TestRankedWorkbookTruncates(t *testing.T) {
 	if got := strings.Join(names, ","); got != "segments,projects,plan,problems,truncated" {
 		t.Fatalf("sheets %s", got)
 	}
-	seg := book.Sheets[0]
+	seg, rankedRows := book.Sheets[0], layerRows(ranked)
 	for k := range limit {
-		if !slices.Equal(seg.Rows[k], orderedValues(ranked, k)) {
+		if !slices.Equal(seg.Rows[k], rankedRows[k].Values) {
 			t.Fatalf("segments row %d is not ranked.csv's row %d", k+1, k+1)
 		}
 	}
 	last := book.Sheets[len(book.Sheets)-1]
-	if len(last.Rows) == 0 || last.Rows[0][0] != "segments" || last.Rows[0][1] != "ranked.csv" || last.Rows[0][2] != len(ranked.Rows) || last.Rows[0][3] != limit {
-		t.Fatalf("truncated sheet %v; want segments, ranked.csv, %d, %d first", last.Rows, len(ranked.Rows), limit)
+	if len(last.Rows) == 0 || last.Rows[0][0] != "segments" || last.Rows[0][1] != "ranked.csv" || last.Rows[0][2] != ranked.Len() || last.Rows[0][3] != limit {
+		t.Fatalf("truncated sheet %v; want segments, ranked.csv, %d, %d first", last.Rows, ranked.Len(), limit)
 	}
-	if whole := rankedWorkbook(ranked, nil, nil, problems, len(ranked.Rows)+len(problems.Rows)); len(whole.Sheets) != 2 {
+	if whole := rankedWorkbook(ranked, nil, nil, problems, ranked.Len()+len(problems.Rows)); len(whole.Sheets) != 2 {
 		t.Fatalf("under the limit the book has %d sheets, want segments and problems", len(whole.Sheets))
 	}
 }

@@ -33,7 +33,9 @@ func (m mapProjection) point(p orb.Point) [2]float64 {
 func newMapProjection(l *gis.Layer) mapProjection {
 	var b orb.Bound
 	first := true
-	for _, row := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		row := rd.Row(i)
 		if row.Geometry == nil {
 			continue
 		}
@@ -96,12 +98,13 @@ func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
 	}
 	tips := r.reportTipColumns()
 	drawn := r.mapMainsDrawn(pipes, cols, valueCol, maxMapMains)
-	if len(drawn) < len(pipes.Rows) {
+	if len(drawn) < pipes.Len() {
 		m.Caption += fmt.Sprintf(" The map draws %s of the %s mains: those in projects, then the highest %s; every main is in the pipe layers and ranked.csv.",
-			thousands(float64(len(drawn)), 0), thousands(float64(len(pipes.Rows)), 0), valueCol)
+			thousands(float64(len(drawn)), 0), thousands(float64(pipes.Len()), 0), valueCol)
 	}
+	rd := pipes.Reader()
 	for _, i := range drawn {
-		row := pipes.Rows[i]
+		row := rd.Row(i)
 		mm := report.MapMain{ID: r.pipes[i].ID, Lines: mapLines(row.Geometry, proj)}
 		if len(mm.Lines) == 0 {
 			continue
@@ -158,7 +161,7 @@ const (
 // them up to limit, else the mains in projects first, then the scored ones
 // from the highest valueCol (priority or score) down.
 func (r *result) mapMainsDrawn(pipes *gis.Layer, cols map[string]int, valueCol string, limit int) []int {
-	rows := make([]int, len(pipes.Rows))
+	rows := make([]int, pipes.Len())
 	for i := range rows {
 		rows[i] = i
 	}
@@ -166,7 +169,9 @@ func (r *result) mapMainsDrawn(pipes *gis.Layer, cols map[string]int, valueCol s
 		return rows
 	}
 	key := make([]float64, len(rows))
-	for i, row := range pipes.Rows {
+	rd := pipes.Reader()
+	for i := range pipes.Len() {
+		row := rd.Row(i)
 		key[i] = -1
 		if v, ok := cell(cols, row, valueCol).(float64); ok && r.scores[i].Scored {
 			key[i] = v
@@ -187,7 +192,9 @@ func (r *result) mapMainsDrawn(pipes *gis.Layer, cols map[string]int, valueCol s
 func lowestHydrants(hs []report.MapHydrant, l *gis.Layer, availCol string, n int) []report.MapHydrant {
 	cols := layerColumns(l)
 	var avail []float64
-	for _, row := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		row := rd.Row(i)
 		if _, ok := row.Geometry.(orb.Point); !ok {
 			continue
 		}
@@ -271,7 +278,9 @@ func mapHydrants(l *gis.Layer, proj mapProjection, s hydraulics.System) []report
 	cols := layerColumns(l)
 	q := s.FlowSuffix()
 	var out []report.MapHydrant
-	for _, row := range l.Rows {
+	rd := l.Reader()
+	for i := range l.Len() {
+		row := rd.Row(i)
 		p, ok := row.Geometry.(orb.Point)
 		if !ok {
 			continue
@@ -313,7 +322,9 @@ func (r *result) chartScores(pipes *gis.Layer) report.Chart {
 	c := report.Chart{ID: "chart-scores", Title: what + " of the scored mains", Kind: report.Bars,
 		XLabel: what + " (0–100)", YLabel: "mains", Caption: "How many mains fall in each band of ten points; the higher bands come first in the plan."}
 	counts := make([]float64, 10)
-	for i, row := range pipes.Rows {
+	rd := pipes.Reader()
+	for i := range pipes.Len() {
+		row := rd.Row(i)
 		if v, ok := cell(cols, row, name).(float64); ok && r.scores[i].Scored {
 			counts[min(int(v/10), 9)]++
 		}

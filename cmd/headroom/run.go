@@ -94,36 +94,39 @@ func openInputs(configPath string) (*inputs, error) {
 
 // result is everything the writers and the summary need.
 type result struct {
-	cfg          *Config
-	title        string
-	pipes        []gis.Pipe
-	sources      []gis.Point
-	demands      []gis.Point
-	areas        []gis.AreaDemand      // demand polygons, with demands.allocation = "areas" (then demands is nil)
-	layerFlows   []hydraulics.Flow     // per input pipe, its flow from the layer (solver.flows = "from_layer")
-	flowCheck    *hydraulics.FlowCheck // the check on those flows; nil when the network was solved
-	elevations   []gis.Point
-	topo         *gis.Topology
-	supplies     []gis.Supply
-	net          *hydraulics.Network
-	parts        [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
-	cFactor      []float64
-	cBasis       []string
-	inside       []hydraulics.Length          // per input pipe: the inside diameter the hydraulics use (sizes.go)
-	sizeClass    []string                     // per input pipe: the size table it came from (sizes.go)
-	age          *ageResult                   // the aging models' C, source and calibration (aging.go)
-	hydrants     []fireHydrant                // the fire-flow sweep's hydrants and results
-	hydrantLayer bool                         // hydrants came from a layer (else every junction)
-	fireCharge   []*scoring.FireFlowShortfall // per input pipe: the shortfall it is charged with
-	sol          *hydraulics.Solution         // peak hour, the scenario the criteria read
-	scenarios    []scenario                   // average day, max day, peak hour
-	checks       []hydraulics.PipeCheck
-	lowNodes     []int  // junctions below the pressure criterion, ascending
-	belowMin     []bool // per node: in lowNodes
-	scores       []scoring.Result
-	problems     []gis.Problem
-	limits       hydraulics.Limits
-	inputPaths   []string // layer and config files read, never to be overwritten
+	cfg        *Config
+	title      string
+	pipes      []gis.Pipe
+	sources    []gis.Point
+	demands    []gis.Point
+	areas      []gis.AreaDemand      // demand polygons, with demands.allocation = "areas" (then demands is nil)
+	layerFlows []hydraulics.Flow     // per input pipe, its flow from the layer (solver.flows = "from_layer")
+	flowCheck  *hydraulics.FlowCheck // the check on those flows; nil when the network was solved
+	elevations []gis.Point
+	// demandCount and elevationCount are the points read and usable; the
+	// points themselves are let go once they are joined to the network.
+	demandCount, elevationCount pointCount
+	topo                        *gis.Topology
+	supplies                    []gis.Supply
+	net                         *hydraulics.Network
+	parts                       [][]int // per input pipe, its links' indices in net.Pipes along it (t.Parts); nil if not in the network
+	cFactor                     []float64
+	cBasis                      []string
+	inside                      []hydraulics.Length          // per input pipe: the inside diameter the hydraulics use (sizes.go)
+	sizeClass                   []string                     // per input pipe: the size table it came from (sizes.go)
+	age                         *ageResult                   // the aging models' C, source and calibration (aging.go)
+	hydrants                    []fireHydrant                // the fire-flow sweep's hydrants and results
+	hydrantLayer                bool                         // hydrants came from a layer (else every junction)
+	fireCharge                  []*scoring.FireFlowShortfall // per input pipe: the shortfall it is charged with
+	sol                         *hydraulics.Solution         // peak hour, the scenario the criteria read
+	scenarios                   []scenario                   // average day, max day, peak hour
+	checks                      []hydraulics.PipeCheck
+	lowNodes                    []int  // junctions below the pressure criterion, ascending
+	belowMin                    []bool // per node: in lowNodes
+	scores                      []scoring.Result
+	problems                    []gis.Problem
+	limits                      hydraulics.Limits
+	inputPaths                  []string // layer and config files read, never to be overwritten
 	// pipeLayerCRS is the pipe layer's coordinate system, which the
 	// GeoPackage and shapefile outputs keep.
 	pipeLayerCRS *gis.CRS
@@ -200,6 +203,8 @@ func analyse(in *inputs) (*result, error) {
 		return nil, fmt.Errorf("%s: %w", cfg.Elevations.Path, err)
 	}
 
+	r.demandCount, r.elevationCount = countPoints(r.demands), countPoints(r.elevations)
+	r.demands, r.elevations = nil, nil // a million points are 140 MB the rest of the run need not hold
 	r.ageDerate()
 	r.net = gis.NewNetwork(r.pipes, topo, supplies, demand, elev, r.inside, r.cFactor)
 	r.ctlPumps = gis.AddPumps(r.net, topo, r.sources, r.supplies)

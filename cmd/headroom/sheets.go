@@ -31,7 +31,7 @@ func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *rep
 		if t.layer == nil {
 			continue
 		}
-		if n := len(t.layer.Rows); n > limit {
+		if n := t.layer.Len(); n > limit {
 			cut = append(cut, []any{t.name, t.file, n, limit})
 		}
 		wb.Sheets = append(wb.Sheets, workSheet(t.name, t.layer, limit))
@@ -46,28 +46,16 @@ func rankedWorkbook(ranked, projects, plan, problems *gis.Layer, limit int) *rep
 // workSheet turns a layer's table (its geometry dropped) into a sheet of
 // its first limit rows at most.
 func workSheet(name string, l *gis.Layer, limit int) report.WorkSheet {
-	ws := report.WorkSheet{Name: name, Columns: make([]report.WorkColumn, len(l.Columns)), Rows: make([][]any, min(len(l.Rows), limit))}
+	ws := report.WorkSheet{Name: name, Columns: make([]report.WorkColumn, len(l.Columns)), Rows: make([][]any, min(l.Len(), limit))}
 	for i, c := range l.Columns {
 		ws.Columns[i] = report.WorkColumn{Name: c.Name, Unit: unitOf(c.Name), Decimals: max(c.Decimals, 0),
 			Integer: c.Kind == gis.Integer, Plain: plainNumber(c.Name)}
 	}
-	for i, row := range l.Rows[:len(ws.Rows)] {
-		if l.Order != nil {
-			ws.Rows[i] = fitCells(orderedValues(l, i), name)
-		} else {
-			ws.Rows[i] = fitCells(row.Values, name)
-		}
+	rd := l.Reader()
+	for i := range ws.Rows {
+		ws.Rows[i] = fitCells(slices.Clone(rd.Row(i).Values), name)
 	}
 	return ws
-}
-
-// orderedValues is row i of l in column order (l.Order applied).
-func orderedValues(l *gis.Layer, i int) []any {
-	out := make([]any, len(l.Columns))
-	for k := range out {
-		out[k] = l.Value(i, k)
-	}
-	return out
 }
 
 // maxCellUTF16 is the most text a spreadsheet cell holds, in UTF-16 code

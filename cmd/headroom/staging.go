@@ -84,14 +84,16 @@ func sameFolder(a, b string) bool {
 // number (a "feature" column) are named when the layer has them.
 func checkFinite(layers ...*gis.Layer) error {
 	for _, l := range layers {
-		for i, row := range l.Rows {
-			for j := range row.Values {
-				if x, ok := floatValue(l.Value(i, j)); ok && !finite(x) && j < len(l.Columns) {
-					return nonFiniteError(l, i, l.Columns[j].Name, x)
+		rd := l.Reader()
+		for i := range l.Len() {
+			row := rd.Row(i)
+			for j, v := range row.Values {
+				if x, ok := floatValue(v); ok && !finite(x) && j < len(l.Columns) {
+					return nonFiniteError(l, i, row, l.Columns[j].Name, x)
 				}
 			}
 			if x, ok := nonFinitePoint(row.Geometry); ok {
-				return nonFiniteError(l, i, "geometry", x)
+				return nonFiniteError(l, i, row, "geometry", x)
 			}
 		}
 	}
@@ -126,8 +128,7 @@ func nonFinitePoint(g orb.Geometry) (float64, bool) {
 }
 
 // nonFiniteError describes a non-finite value in row i of l.
-func nonFiniteError(l *gis.Layer, i int, column string, x float64) error {
-	row := l.Rows[i]
+func nonFiniteError(l *gis.Layer, i int, row gis.Row, column string, x float64) error {
 	var who []string
 	if len(l.Columns) > 0 && len(row.Values) > 0 {
 		if id, ok := row.Values[0].(string); ok && l.Columns[0].Kind == gis.String {

@@ -118,7 +118,7 @@ func cureCheckRun(t *testing.T, r *result) {
 		t.Fatalf("pipe layer has no recommended_diameter_%s column", s.DiameterSuffix())
 	}
 	upsized := 0
-	for i, row := range pipes.Rows {
+	for i, row := range layerRows(pipes) {
 		d, ok := row.Values[col].(float64)
 		if len(r.parts[i]) == 0 {
 			continue
