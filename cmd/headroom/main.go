@@ -18,7 +18,7 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"runtime/debug"
+	"time"
 )
 
 // Exit codes (README: 0 ok, 1 input, 2 usage, 3 solver).
@@ -31,18 +31,10 @@ const (
 
 func main() {
 	if _, set := os.LookupEnv("GOMEMLIMIT"); !set {
-		debug.SetMemoryLimit(softMemoryLimit)
+		followMemoryLimit(softMemoryLimit, 250*time.Millisecond) // memlimit.go; until exit
 	}
 	os.Exit(headroomMain(os.Args[1:], os.Stdout, os.Stderr))
 }
-
-// softMemoryLimit is the heap size past which the garbage collector works
-// harder rather than let the heap double (Go's default between
-// collections). Measured on the 1M-segment demo town (README, Performance):
-// 2 GiB gave 81 s and 3,576 MiB resident, 3 GiB 71 s and 3,523 MiB, no
-// limit 61 s and 5,838 MiB. The environment variable GOMEMLIMIT overrides
-// it; it is soft, so a larger network still runs.
-const softMemoryLimit = 3 << 30 // bytes (3 GiB)
 
 // headroomMain dispatches a subcommand and returns the process exit code.
 func headroomMain(args []string, stdout, stderr io.Writer) int {
