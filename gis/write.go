@@ -272,12 +272,71 @@ func formatFloat(buf []byte, c Column, x float64) ([]byte, bool, error) {
 	case c.Decimals < 0:
 		return strconv.AppendFloat(buf, x, 'g', -1, 64), false, nil
 	}
+	if out, ok := appendFixed(buf, x, c.Decimals); ok {
+		return out, false, nil
+	}
+	return appendFixedStrconv(buf, x, c.Decimals), false, nil
+}
+
+// appendFixedStrconv appends x with d decimals, rounded as
+// strconv.AppendFloat rounds x's exact binary value (half to even), except
+// that a value that rounds to zero is written without a minus sign.
+func appendFixedStrconv(buf []byte, x float64, d int) []byte {
 	// Round first so that a tiny negative value does not print as "-0.00".
-	p := math.Pow(10, float64(c.Decimals))
+	p := math.Pow(10, float64(d))
 	if r := math.Round(x*p) / p; r == 0 && !math.IsInf(x*p, 0) {
 		x = 0
 	}
-	return strconv.AppendFloat(buf, x, 'f', c.Decimals, 64), false, nil
+	return strconv.AppendFloat(buf, x, 'f', d, 64)
+}
+
+// exactPow10 are the powers of ten that float64 holds exactly, as far as
+// appendFixed uses them.
+var exactPow10 = [...]float64{1, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15}
+
+// appendFixed is appendFixedStrconv's fast path, about twice as quick: it
+// rounds y = x·10^d to an integer n and writes n's digits with a decimal
+// point d from the right. y is x·10^d rounded once, so it is within
+// |y|·2⁻⁵³ of the exact product; rounding the exact product to the nearest
+// integer gives n too unless a half-integer lies within that distance of y.
+// Then, and for |y| ≥ 2⁵², ok is false and the caller takes the slow path,
+// so the text is always appendFixedStrconv's.
+func appendFixed(buf []byte, x float64, d int) (_ []byte, ok bool) {
+	if d < 0 || d >= len(exactPow10) {
+		return buf, false
+	}
+	y := x * exactPow10[d]
+	a := math.Abs(y)
+	if !(a < 1<<52) { // also NaN
+		return buf, false
+	}
+	whole := math.Floor(a)
+	frac := a - whole // exact below 2⁵²
+	if math.Abs(frac-0.5) <= a*0x1p-52 {
+		return buf, false
+	}
+	n := uint64(whole)
+	if frac > 0.5 {
+		n++
+	}
+	if n != 0 && y < 0 {
+		buf = append(buf, '-')
+	}
+	var digits [24]byte
+	text := strconv.AppendUint(digits[:0], n, 10)
+	if len(text) <= d { // 0.00ddd: pad with zeros after the point
+		buf = append(buf, '0', '.')
+		for range d - len(text) {
+			buf = append(buf, '0')
+		}
+		return append(buf, text...), true
+	}
+	buf = append(buf, text[:len(text)-d]...)
+	if d > 0 {
+		buf = append(buf, '.')
+		buf = append(buf, text[len(text)-d:]...)
+	}
+	return buf, true
 }
 
 func appendJSONValue(buf []byte, c Column, v any) ([]byte, error) {
