@@ -68,7 +68,10 @@ func BenchmarkFormatFixed(b *testing.B) {
 		name string
 		f    func([]byte, float64) []byte
 	}{
-		{"fast", func(b []byte, x float64) []byte { out, _, _ := formatFloat(b, Column{Kind: Real, Decimals: 3}, x); return out }},
+		{"fast", func(b []byte, x float64) []byte {
+			out, _, _ := formatFloat(b, Column{Kind: Real, Decimals: 3}, x)
+			return out
+		}},
 		{"strconv", func(b []byte, x float64) []byte { return appendFixedStrconv(b, x, 3) }},
 	} {
 		b.Run(c.name, func(b *testing.B) {
