@@ -1,9 +1,12 @@
 package gis
 
 import (
+	"encoding/csv"
+	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"strconv"
+	"strings"
 	"testing"
 )
 
@@ -86,4 +89,85 @@ func BenchmarkFormatFixed(b *testing.B) {
 			b.ReportMetric(float64(n)/b.Elapsed().Seconds(), "values/s")
 		})
 	}
+}
+
+// jsonStringCases are texts whose JSON escaping differs by rule: quotes,
+// backslashes, every control character, HTML-sensitive bytes, DEL, U+2028
+// and U+2029, multi-byte UTF-8 and invalid UTF-8.
+var jsonStringCases = []string{
+	"", "QM-00001", `a"b\c`, "<b>&amp;</b>", "\x7f", "line\u2028para\u2029end", "Straße 💧 ñ",
+	"\xff", "ok\xc3", "\xe2\x80", "\xed\xa0\x80", // invalid: lone byte, cut sequences, a surrogate
+	string([]byte{0, 1, 7, 8, 9, 10, 11, 12, 13, 27, 31, 32}),
+}
+
+// TestAppendJSONStringIsMarshal: appendJSONString writes what json.Marshal
+// writes for a string (the reference), on the cases above and on every
+// single byte and every two-byte pair.
+func TestAppendJSONStringIsMarshal(t *testing.T) {
+	check := func(s string) {
+		t.Helper()
+		want, _ := json.Marshal(s)
+		if got := appendJSONString([]byte("x"), s); string(got) != "x"+string(want) {
+			t.Fatalf("appendJSONString(%q) = %s, json.Marshal gives %s", s, got[1:], want)
+		}
+	}
+	for _, s := range jsonStringCases {
+		check(s)
+	}
+	for a := range 256 {
+		check(string([]byte{byte(a)}))
+		for b := range 256 {
+			check(string([]byte{byte(a), byte(b)}))
+		}
+	}
+}
+
+// FuzzAppendJSONString holds appendJSONString to json.Marshal on any text.
+func FuzzAppendJSONString(f *testing.F) {
+	for _, s := range jsonStringCases {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		want, _ := json.Marshal(s)
+		if got := appendJSONString(nil, s); string(got) != string(want) {
+			t.Fatalf("appendJSONString(%q) = %s, json.Marshal gives %s", s, got, want)
+		}
+	})
+}
+
+// csvFieldCases are texts on each side of encoding/csv's quoting rules.
+var csvFieldCases = []string{
+	"", "plain", "a,b", `say "hi"`, "two\nlines", "cr\rhere", "crlf\r\n", " lead", "\tlead", "\u00a0nbsp",
+	"\u3000ideographic", "trail ", `\.`, `\.x`, "=A1", "-12.5", "'", "Straße 💧", "\xff\xfe",
+}
+
+// TestAppendCSVFieldIsEncodingCSV: appendCSVField writes each field as
+// encoding/csv's Writer (the reference) writes a record of that one field.
+func TestAppendCSVFieldIsEncodingCSV(t *testing.T) {
+	for _, s := range csvFieldCases {
+		if got, want := string(appendCSVField(nil, s))+"\n", csvRecord(s); got != want {
+			t.Errorf("appendCSVField(%q) = %q, encoding/csv writes %q", s, got, want)
+		}
+	}
+}
+
+// FuzzAppendCSVField holds appendCSVField to encoding/csv on any text.
+func FuzzAppendCSVField(f *testing.F) {
+	for _, s := range csvFieldCases {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		if got, want := string(appendCSVField(nil, s))+"\n", csvRecord(s); got != want {
+			t.Fatalf("appendCSVField(%q) = %q, encoding/csv writes %q", s, got, want)
+		}
+	})
+}
+
+// csvRecord is encoding/csv's text of a one-field record.
+func csvRecord(s string) string {
+	var b strings.Builder
+	w := csv.NewWriter(&b)
+	w.Write([]string{s})
+	w.Flush()
+	return b.String()
 }

@@ -312,3 +312,40 @@ func (rd *RowReader) viewRow(i int) Row {
 	}
 	return r
 }
+
+// Value is row i's value in column k, read without the rest of the row.
+func (rd *RowReader) Value(i, k int) any {
+	l := rd.l
+	switch {
+	case l.view != nil:
+		if l.view.rows != nil {
+			i = l.view.rows[i]
+		}
+		if l.view.columns != nil {
+			k = l.view.columns[k]
+		}
+		return rd.source.Value(i, k)
+	case l.packed != nil:
+		return l.packed.chunks[i/packedChunkRows].columns[k].get(i % packedChunkRows)
+	}
+	return l.Rows[i].Values[k]
+}
+
+// Geometry is row i's geometry, read without its values.
+func (rd *RowReader) Geometry(i int) orb.Geometry {
+	l := rd.l
+	switch {
+	case l.view != nil:
+		if l.view.rows != nil {
+			i = l.view.rows[i]
+		}
+		g := rd.source.Geometry(i)
+		if l.view.geometry != nil {
+			g = l.view.geometry(g)
+		}
+		return g
+	case l.packed != nil:
+		return l.packed.chunks[i/packedChunkRows].geometry[i%packedChunkRows]
+	}
+	return l.Rows[i].Geometry
+}

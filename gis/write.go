@@ -2,7 +2,6 @@ package gis
 
 import (
 	"bufio"
-	"encoding/csv"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -12,6 +11,8 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"unicode"
+	"unicode/utf8"
 
 	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/geojson"
@@ -150,46 +151,80 @@ func WriteCSV(path string, l *Layer) error {
 	return WriteFileAtomic(path, func(w io.Writer) error { return writeCSV(w, l) })
 }
 
-// writeCSV writes the records of WriteCSV to w.
+// writeCSV writes the records of WriteCSV to w, in the bytes
+// encoding/csv's Writer writes (see appendCSVField), one line at a time.
 func writeCSV(w io.Writer, l *Layer) error {
-	cw := csv.NewWriter(w)
-	rec := make([]string, len(l.Columns))
+	bw := bufio.NewWriterSize(w, 1<<20)
+	line := make([]byte, 0, 4096)
 	for j, c := range l.Columns {
-		rec[j] = formulaSafe(c.Name)
+		if j > 0 {
+			line = append(line, ',')
+		}
+		line = appendCSVField(line, formulaSafe(c.Name))
 	}
-	if err := cw.Write(rec); err != nil {
+	line = append(line, '\n')
+	if _, err := bw.Write(line); err != nil {
 		return err
 	}
-	var buf []byte
 	rd := l.Reader()
 	for i := range l.Len() {
 		r := rd.Row(i)
 		if len(r.Values) != len(l.Columns) {
 			return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
 		}
+		line = line[:0]
 		for j, c := range l.Columns {
+			if j > 0 {
+				line = append(line, ',')
+			}
 			v := r.Values[j]
 			if s, ok := v.(string); ok {
-				rec[j] = formulaSafe(s)
+				line = appendCSVField(line, formulaSafe(s))
 				continue
 			}
-			s, isNull, err := formatValue(buf[:0], c, v)
-			if err != nil {
+			// Numbers and bools never need quotes; a null is an empty field.
+			var err error
+			if line, _, err = formatValue(line, c, v); err != nil {
 				return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
 			}
-			if isNull {
-				rec[j] = ""
-			} else {
-				rec[j] = string(s)
-			}
-			buf = s
 		}
-		if err := cw.Write(rec); err != nil {
+		line = append(line, '\n')
+		if _, err := bw.Write(line); err != nil {
 			return err
 		}
 	}
-	cw.Flush()
-	return cw.Error()
+	return bw.Flush()
+}
+
+// appendCSVField appends field as encoding/csv's Writer writes it (comma
+// delimiter, \n line ends): inside double quotes, each '"' doubled, when it
+// holds a comma, a quote, \r or \n, starts with a space (unicode.IsSpace)
+// or is exactly \. (which a PostgreSQL COPY reads as the end of data);
+// as it is otherwise.
+func appendCSVField(buf []byte, field string) []byte {
+	if !csvNeedsQuotes(field) {
+		return append(buf, field...)
+	}
+	buf = append(buf, '"')
+	for i := 0; i < len(field); i++ {
+		if field[i] == '"' {
+			buf = append(buf, '"')
+		}
+		buf = append(buf, field[i])
+	}
+	return append(buf, '"')
+}
+
+// csvNeedsQuotes is encoding/csv's fieldNeedsQuotes for a comma delimiter.
+func csvNeedsQuotes(field string) bool {
+	if field == "" {
+		return false
+	}
+	if field == `\.` || strings.ContainsAny(field, ",\"\r\n") {
+		return true
+	}
+	r1, _ := utf8.DecodeRuneInString(field)
+	return unicode.IsSpace(r1)
 }
 
 // formulaSafe returns text for a spreadsheet cell: s with a single quote in
@@ -353,10 +388,62 @@ func appendJSONValue(buf []byte, c Column, v any) ([]byte, error) {
 	return out, nil
 }
 
-// appendJSONString appends s as a JSON string (encoding/json's escaping).
+// appendJSONString appends s as a JSON string, byte for byte as
+// json.Marshal writes it: '"' and '\\' escaped with a backslash, \b \f \n
+// \r \t by name, other control characters and the HTML-sensitive '<', '>',
+// '&' as \u00XX, U+2028 and U+2029 as \u2028 and \u2029, and each byte of
+// invalid UTF-8 as \ufffd. json.Marshal itself costs an allocation and a
+// reflection per string, ten million of them in a 1M-pipe layer.
 func appendJSONString(buf []byte, s string) []byte {
-	b, _ := json.Marshal(s) // a string always marshals
-	return append(buf, b...)
+	const hex = "0123456789abcdef"
+	buf = append(buf, '"')
+	start := 0 // s[start:i] is yet to be appended, needing no escape
+	for i := 0; i < len(s); {
+		if b := s[i]; b < utf8.RuneSelf {
+			if b >= 0x20 && b != '"' && b != '\\' && b != '<' && b != '>' && b != '&' {
+				i++
+				continue
+			}
+			buf = append(buf, s[start:i]...)
+			switch b {
+			case '"', '\\':
+				buf = append(buf, '\\', b)
+			case '\b':
+				buf = append(buf, '\\', 'b')
+			case '\f':
+				buf = append(buf, '\\', 'f')
+			case '\n':
+				buf = append(buf, '\\', 'n')
+			case '\r':
+				buf = append(buf, '\\', 'r')
+			case '\t':
+				buf = append(buf, '\\', 't')
+			default:
+				buf = append(buf, '\\', 'u', '0', '0', hex[b>>4], hex[b&0xf])
+			}
+			i++
+			start = i
+			continue
+		}
+		r, size := utf8.DecodeRuneInString(s[i:])
+		if r == utf8.RuneError && size == 1 {
+			buf = append(buf, s[start:i]...)
+			buf = append(buf, `\ufffd`...)
+			i += size
+			start = i
+			continue
+		}
+		if r == '\u2028' || r == '\u2029' {
+			buf = append(buf, s[start:i]...)
+			buf = append(buf, '\\', 'u', '2', '0', '2', hex[r&0xf])
+			i += size
+			start = i
+			continue
+		}
+		i += size
+	}
+	buf = append(buf, s[start:]...)
+	return append(buf, '"')
 }
 
 // appendGeometry appends g as a GeoJSON geometry object, or null.

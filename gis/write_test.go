@@ -493,7 +493,26 @@ func TestPackedAndViewLayers(t *testing.T) {
 		copied.Rows = append(copied.Rows, Row{Geometry: shift(r.Geometry), Values: v})
 	}
 	compareWrites(t, "view", view, copied)
+	sameCells(t, "packed", packed, plain)
+	sameCells(t, "view", view, copied)
 	compareWrites(t, "view of all rows", plain.View("t", nil, nil, nil), plain)
+}
+
+// sameCells fails unless RowReader.Value and Geometry of a give b's rows,
+// cell by cell.
+func sameCells(t *testing.T, what string, a, b *Layer) {
+	t.Helper()
+	rd := a.Reader()
+	for i, r := range b.Rows {
+		if g := rd.Geometry(i); !reflect.DeepEqual(g, r.Geometry) {
+			t.Fatalf("%s row %d: geometry %v, want %v", what, i, g, r.Geometry)
+		}
+		for k, want := range r.Values {
+			if got := rd.Value(i, k); !reflect.DeepEqual(got, want) {
+				t.Fatalf("%s row %d column %d: %#v, want %#v", what, i, k, got, want)
+			}
+		}
+	}
 }
 
 // compareWrites writes a and b in every format and fails unless each pair

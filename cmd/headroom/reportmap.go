@@ -35,14 +35,14 @@ func newMapProjection(l *gis.Layer) mapProjection {
 	first := true
 	rd := l.Reader()
 	for i := range l.Len() {
-		row := rd.Row(i)
-		if row.Geometry == nil {
+		g := rd.Geometry(i)
+		if g == nil {
 			continue
 		}
 		if first {
-			b, first = row.Geometry.Bound(), false
+			b, first = g.Bound(), false
 		} else {
-			b = b.Union(row.Geometry.Bound())
+			b = b.Union(g.Bound())
 		}
 	}
 	return mapProjection{cosLat: math.Cos(b.Center()[1] * math.Pi / 180)}
@@ -61,6 +61,15 @@ func layerColumns(l *gis.Layer) map[string]int {
 func cell(cols map[string]int, row gis.Row, name string) any {
 	if k, ok := cols[name]; ok {
 		return row.Values[k]
+	}
+	return nil
+}
+
+// columnValue is row i's value in column name, nil when absent, read
+// without the rest of the row (a pass over a million rows).
+func columnValue(rd *gis.RowReader, cols map[string]int, i int, name string) any {
+	if k, ok := cols[name]; ok {
+		return rd.Value(i, k)
 	}
 	return nil
 }
@@ -171,9 +180,8 @@ func (r *result) mapMainsDrawn(pipes *gis.Layer, cols map[string]int, valueCol s
 	key := make([]float64, len(rows))
 	rd := pipes.Reader()
 	for i := range pipes.Len() {
-		row := rd.Row(i)
 		key[i] = -1
-		if v, ok := cell(cols, row, valueCol).(float64); ok && r.scores[i].Scored {
+		if v, ok := columnValue(rd, cols, i, valueCol).(float64); ok && r.scores[i].Scored {
 			key[i] = v
 		}
 		if r.prog != nil && r.prog.projectOf[i] >= 0 {
@@ -324,8 +332,7 @@ func (r *result) chartScores(pipes *gis.Layer) report.Chart {
 	counts := make([]float64, 10)
 	rd := pipes.Reader()
 	for i := range pipes.Len() {
-		row := rd.Row(i)
-		if v, ok := cell(cols, row, name).(float64); ok && r.scores[i].Scored {
+		if v, ok := columnValue(rd, cols, i, name).(float64); ok && r.scores[i].Scored {
 			counts[min(int(v/10), 9)]++
 		}
 	}
