@@ -349,3 +349,82 @@ func (rd *RowReader) Geometry(i int) orb.Geometry {
 	}
 	return l.Rows[i].Geometry
 }
+
+// FirstNonFinite returns the first row of l holding a NaN or ±Inf: a
+// float64 or float32 value or a coordinate of its geometry. A packed layer
+// is scanned column by column, without boxing its values.
+func (l *Layer) FirstNonFinite() (row int, found bool) {
+	if l.packed == nil {
+		rd := l.Reader()
+		for i := range l.Len() {
+			if r := rd.Row(i); valuesNonFinite(r.Values) || geometryNonFinite(r.Geometry) {
+				return i, true
+			}
+		}
+		return 0, false
+	}
+	for c, ch := range l.packed.chunks {
+		first := len(ch.geometry) // the chunk's first such row found so far
+		for k := range ch.columns {
+			first = ch.columns[k].firstNonFinite(first)
+		}
+		for j, g := range ch.geometry[:first] {
+			if geometryNonFinite(g) {
+				first = j
+				break
+			}
+		}
+		if first < len(ch.geometry) {
+			return c*packedChunkRows + first, true
+		}
+	}
+	return 0, false
+}
+
+// firstNonFinite is the first row before end whose value is a non-finite
+// float, or end.
+func (c *packedColumn) firstNonFinite(end int) int {
+	switch c.kind {
+	case packedFloat: // a null row's word is 0, a finite 0.0
+		for j, w := range c.words[:end] {
+			if x := math.Float64frombits(w); math.IsNaN(x) || math.IsInf(x, 0) {
+				return j
+			}
+		}
+	case packedMixed:
+		for j, v := range c.mixed[:end] {
+			if valuesNonFinite([]any{v}) {
+				return j
+			}
+		}
+	}
+	return end
+}
+
+// valuesNonFinite reports a float64 or float32 value that is NaN or ±Inf.
+func valuesNonFinite(values []any) bool {
+	for _, v := range values {
+		var x float64
+		switch f := v.(type) {
+		case float64:
+			x = f
+		case float32:
+			x = float64(f)
+		default:
+			continue
+		}
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return true
+		}
+	}
+	return false
+}
+
+// geometryNonFinite reports a NaN or ±Inf coordinate in g.
+func geometryNonFinite(g orb.Geometry) bool {
+	bad := false
+	EachPoint(g, func(p orb.Point) {
+		bad = bad || math.IsNaN(p[0]) || math.IsInf(p[0], 0) || math.IsNaN(p[1]) || math.IsInf(p[1], 0)
+	})
+	return bad
+}

@@ -503,6 +503,34 @@ func TestCheckFinite(t *testing.T) {
 		{"NaN coordinate", layer(1.0, orb.MultiLineString{line, {{2, 2}, {math.NaN(), 3}}}), []string{"row 2", "geometry is NaN"}},
 		{"Inf point in a collection", layer(1.0, orb.Collection{orb.Point{math.Inf(1), 0}}), []string{"geometry is +Inf"}},
 	}
+	// Each again packed (gis.PackLayer scans its float columns directly),
+	// and a packed layer whose NaN is in its second chunk.
+	packed := func(l *gis.Layer) *gis.Layer {
+		return gis.PackLayer(l.Name, l.Columns, len(l.Rows), func(i int, v []any) orb.Geometry {
+			copy(v, l.Rows[i].Values)
+			return l.Rows[i].Geometry
+		})
+	}
+	for _, tc := range slices.Clone(cases) {
+		cases = append(cases, struct {
+			name string
+			l    *gis.Layer
+			want []string
+		}{tc.name + " packed", packed(tc.l), tc.want})
+	}
+	long := layer(1.0, line)
+	for i := range 10_000 {
+		v := any(float64(i))
+		if i == 9_000 {
+			v = math.NaN()
+		}
+		long.Rows = append(long.Rows, gis.Row{Geometry: line, Values: []any{fmt.Sprint("L-", i), 100 + i, v}})
+	}
+	cases = append(cases, struct {
+		name string
+		l    *gis.Layer
+		want []string
+	}{"second chunk packed", packed(long), []string{"row 9003", `pipe_id "L-9000"`, "input feature 9100", "velocity_fps is NaN"}})
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
 			err := checkFinite(&gis.Layer{Name: "nodes"}, tc.l)

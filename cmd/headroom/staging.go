@@ -84,17 +84,18 @@ func sameFolder(a, b string) bool {
 // number (a "feature" column) are named when the layer has them.
 func checkFinite(layers ...*gis.Layer) error {
 	for _, l := range layers {
-		rd := l.Reader()
-		for i := range l.Len() {
-			row := rd.Row(i)
-			for j, v := range row.Values {
-				if x, ok := floatValue(v); ok && !finite(x) && j < len(l.Columns) {
-					return nonFiniteError(l, i, row, l.Columns[j].Name, x)
-				}
+		i, found := l.FirstNonFinite()
+		if !found {
+			continue
+		}
+		row := l.Reader().Row(i)
+		for j, v := range row.Values {
+			if x, ok := floatValue(v); ok && !finite(x) && j < len(l.Columns) {
+				return nonFiniteError(l, i, row, l.Columns[j].Name, x)
 			}
-			if x, ok := nonFinitePoint(row.Geometry); ok {
-				return nonFiniteError(l, i, row, "geometry", x)
-			}
+		}
+		if x, ok := nonFinitePoint(row.Geometry); ok {
+			return nonFiniteError(l, i, row, "geometry", x)
 		}
 	}
 	return nil
