@@ -2,6 +2,7 @@ package gis
 
 import (
 	"math"
+	"strconv"
 
 	"github.com/paulmach/orb"
 )
@@ -427,4 +428,58 @@ func geometryNonFinite(g orb.Geometry) bool {
 		bad = bad || math.IsNaN(p[0]) || math.IsInf(p[0], 0) || math.IsNaN(p[1]) || math.IsInf(p[1], 0)
 	})
 	return bad
+}
+
+// scalar is row i's value in column k without boxing, for the writers'
+// inner loops: a float's bits with packedFloat, an int with packedInt, 0
+// with packedNone for a null; packedMixed when the value is of another
+// type or the layer is not packed, and then Value has it.
+func (rd *RowReader) scalar(i, k int) (uint64, packedKind) {
+	l := rd.l
+	switch {
+	case l.view != nil:
+		if l.view.rows != nil {
+			i = l.view.rows[i]
+		}
+		if l.view.columns != nil {
+			k = l.view.columns[k]
+		}
+		return rd.source.scalar(i, k)
+	case l.packed != nil:
+		c := &l.packed.chunks[i/packedChunkRows].columns[k]
+		j := i % packedChunkRows
+		switch {
+		case c.null != nil && c.null[j/64]&(1<<(j%64)) != 0:
+			return 0, packedNone
+		case c.kind == packedFloat || c.kind == packedInt:
+			return c.words[j], c.kind
+		}
+	}
+	return 0, packedMixed
+}
+
+// width is the number of values row i holds: a plain layer's row may be
+// short or long, which the writers report; packed rows and views have one
+// a column.
+func (rd *RowReader) width(i int) int {
+	if rd.l.view == nil && rd.l.packed == nil {
+		return len(rd.l.Rows[i].Values)
+	}
+	return len(rd.l.Columns)
+}
+
+// appendNumber appends row i's value in column k as formatValue writes
+// it, when the layer holds it unboxed (a packed float or int, or a null:
+// null reports it); ok is false otherwise, and the caller reads Value.
+func (rd *RowReader) appendNumber(buf []byte, i, k int, c Column) (out []byte, null, ok bool) {
+	switch bits, kind := rd.scalar(i, k); kind {
+	case packedNone:
+		return buf, true, true
+	case packedFloat:
+		out, null, _ = formatFloat(buf, c, math.Float64frombits(bits)) // never fails
+		return out, null, true
+	case packedInt:
+		return strconv.AppendInt(buf, int64(bits), 10), false, true
+	}
+	return buf, false, false
 }

@@ -91,9 +91,8 @@ func WriteGeoJSON(path string, l *Layer) error {
 		}
 		rd, n := l.Reader(), l.Len()
 		for i := range n {
-			r := rd.Row(i)
-			if len(r.Values) != len(l.Columns) {
-				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
+			if w := rd.width(i); w != len(l.Columns) {
+				return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, w, len(l.Columns))
 			}
 			buf = append(buf, `{"type":"Feature","properties":{`...)
 			for j, c := range l.Columns {
@@ -102,14 +101,20 @@ func WriteGeoJSON(path string, l *Layer) error {
 				}
 				buf = append(buf, keys[j]...)
 				buf = append(buf, ':')
+				if out, null, ok := rd.appendNumber(buf, i, j, c); ok {
+					if buf = out; null {
+						buf = append(buf, "null"...)
+					}
+					continue
+				}
 				var err error
-				if buf, err = appendJSONValue(buf, c, r.Values[j]); err != nil {
+				if buf, err = appendJSONValue(buf, c, rd.Value(i, j)); err != nil {
 					return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
 				}
 			}
 			buf = append(buf, `},"geometry":`...)
 			var err error
-			if buf, err = appendGeometry(buf, r.Geometry); err != nil {
+			if buf, err = appendGeometry(buf, rd.Geometry(i)); err != nil {
 				return fmt.Errorf("gis: layer %q row %d: %w", l.Name, i+1, err)
 			}
 			buf = append(buf, '}')
@@ -168,16 +173,19 @@ func writeCSV(w io.Writer, l *Layer) error {
 	}
 	rd := l.Reader()
 	for i := range l.Len() {
-		r := rd.Row(i)
-		if len(r.Values) != len(l.Columns) {
-			return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, len(r.Values), len(l.Columns))
+		if w := rd.width(i); w != len(l.Columns) {
+			return fmt.Errorf("gis: layer %q row %d: %d values for %d columns", l.Name, i+1, w, len(l.Columns))
 		}
 		line = line[:0]
 		for j, c := range l.Columns {
 			if j > 0 {
 				line = append(line, ',')
 			}
-			v := r.Values[j]
+			if out, _, ok := rd.appendNumber(line, i, j, c); ok { // a null is an empty field
+				line = out
+				continue
+			}
+			v := rd.Value(i, j)
 			if s, ok := v.(string); ok {
 				line = appendCSVField(line, formulaSafe(s))
 				continue
