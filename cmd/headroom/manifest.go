@@ -11,6 +11,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"strconv"
+	"sync"
 	"time"
 
 	"github.com/BurntSushi/toml"
@@ -23,23 +24,69 @@ import (
 // version is headroom's release, written into the manifest and the report.
 const version = "0.8.0"
 
-// manifestOutput is manifest.json, written last: it hashes the files
-// staged before it (outs, every part of a shapefile), so that each output's
-// SHA-256 is of the bytes that are then renamed into place.
-func (r *result) manifestOutput(outs []output) output {
-	return output{"manifest.json", func(path string) error {
-		m, err := r.manifest(r.in, filepath.Dir(path), outs)
+// withManifest returns outs, each now hashing its staged files (every
+// part of a shapefile) as soon as it has written them, followed by
+// manifest.json, written last with those SHA-256s: each is of the bytes
+// that are then renamed into place. The hashes are taken while the other
+// outputs are still being written, and the inputs' from now on, so that
+// the manifest does not read two gigabytes alone at the end of a large run.
+func (r *result) withManifest(outs []output) []output {
+	h := &stagedHashes{outs: map[string]report.FileRecord{}, inputsDone: make(chan struct{})}
+	go func() {
+		defer close(h.inputsDone)
+		h.inputs, h.inputsErr = r.inputRecords(r.in)
+	}()
+	hashed := make([]output, len(outs))
+	for k, o := range outs {
+		hashed[k] = output{o.name, func(path string) error {
+			if err := o.write(path); err != nil {
+				return err
+			}
+			return h.hashStaged(filepath.Dir(path), o.name)
+		}}
+	}
+	return append(hashed, output{"manifest.json", func(path string) error {
+		m, err := r.manifest(filepath.Dir(path), outs, h)
 		if err != nil {
 			return err
 		}
 		return gis.WriteFileAtomic(path, func(w io.Writer) error { return report.WriteManifest(w, m) })
-	}}
+	}})
+}
+
+// stagedHashes are the SHA-256 records of the staged outputs, by file
+// name, and of the inputs once inputsDone is closed.
+type stagedHashes struct {
+	mu         sync.Mutex
+	outs       map[string]report.FileRecord
+	inputsDone chan struct{}
+	inputs     []report.FileRecord
+	inputsErr  error
+}
+
+// hashStaged records the hash of every file output name produced in stage.
+func (h *stagedHashes) hashStaged(stage, name string) error {
+	for _, f := range producedFiles(name) {
+		p := filepath.Join(stage, f)
+		if _, err := os.Stat(p); os.IsNotExist(err) {
+			continue // a shapefile part not written (no .prj)
+		}
+		rec, err := report.HashFile(p, f, "")
+		if err != nil {
+			return fmt.Errorf("hashing %s for the manifest: %w", f, err)
+		}
+		h.mu.Lock()
+		h.outs[f] = rec
+		h.mu.Unlock()
+	}
+	return nil
 }
 
 // manifest gathers the run's record: version, the time, the config as used,
 // every input with its SHA-256, the counts, each scenario's solver figures
-// and every output staged in stage.
-func (r *result) manifest(in *inputs, stage string, outs []output) (*report.Manifest, error) {
+// and every output staged in stage, with the hashes in h (an output's file
+// that h lacks is hashed here).
+func (r *result) manifest(stage string, outs []output, h *stagedHashes) (*report.Manifest, error) {
 	cfgMap, err := configAsUsed(r.cfg)
 	if err != nil {
 		return nil, err
@@ -49,7 +96,8 @@ func (r *result) manifest(in *inputs, stage string, outs []output) (*report.Mani
 		Config: cfgMap, Cautions: cautions, GoVersion: runtime.Version(), Platform: runtime.GOOS + "/" + runtime.GOARCH,
 		ConfigFile: r.cfg.file,
 	}
-	if m.Inputs, err = r.inputRecords(in); err != nil {
+	<-h.inputsDone
+	if m.Inputs, err = h.inputs, h.inputsErr; err != nil {
 		return nil, err
 	}
 	for _, a := range r.accounts() {
@@ -58,13 +106,17 @@ func (r *result) manifest(in *inputs, stage string, outs []output) (*report.Mani
 	m.Scenarios = r.scenarioStats()
 	for _, o := range outs {
 		for _, f := range producedFiles(o.name) {
-			p := filepath.Join(stage, f)
-			if _, err := os.Stat(p); os.IsNotExist(err) {
-				continue // a shapefile part not written (no .prj)
-			}
-			rec, err := report.HashFile(p, f, "")
-			if err != nil {
-				return nil, fmt.Errorf("manifest: %w", err)
+			h.mu.Lock()
+			rec, ok := h.outs[f]
+			h.mu.Unlock()
+			if !ok {
+				p := filepath.Join(stage, f)
+				if _, err := os.Stat(p); os.IsNotExist(err) {
+					continue // a shapefile part not written (no .prj)
+				}
+				if rec, err = report.HashFile(p, f, ""); err != nil {
+					return nil, fmt.Errorf("manifest: %w", err)
+				}
 			}
 			m.Outputs = append(m.Outputs, rec)
 		}

@@ -111,7 +111,7 @@ func writeOutputs(dir string, r *result, opt writeOptions) ([]string, error) {
 			doc := r.reportDocument(pipes, hydrants)
 			return gis.WriteFileAtomic(p, func(w io.Writer) error { return report.WriteHTML(w, doc) })
 		}})
-	outs = append(outs, r.manifestOutput(slices.Clone(outs)))
+	outs = r.withManifest(outs) // each output hashes its files once written; manifest.json last
 	for _, o := range outs {
 		for _, f := range producedFiles(o.name) {
 			if path := filepath.Join(dir, f); r.isInput(path) {
