@@ -904,6 +904,30 @@ func BenchmarkWriteGeoPackage100k(b *testing.B) {
 	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "features/s")
 }
 
+// BenchmarkWriteGeoPackagePipes100k writes the 32-column pipe layer of
+// the CSV and GeoJSON benchmarks (text, integer and real columns with
+// fixed and shortest decimals, some nulls), closer to the width of the
+// pipes.gpkg a run writes than the five columns above.
+func BenchmarkWriteGeoPackagePipes100k(b *testing.B) {
+	const n = 100_000
+	l := benchWritePipeLayer(n)
+	srs := SpatialRef{ID: 4326}
+	path := filepath.Join(b.TempDir(), "pipes.gpkg")
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := WriteGeoPackage(path, srs, l); err != nil {
+			b.Fatal(err)
+		}
+	}
+	st, err := os.Stat(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	s := b.Elapsed().Seconds()
+	b.ReportMetric(float64(n)*float64(b.N)/s, "rows/s")
+	b.ReportMetric(float64(st.Size())*float64(b.N)/s/1e6, "MB/s")
+}
+
 // Reading never leaves files beside the input, also for a database in WAL
 // mode (SQLite's read-only open would create -wal and -shm files).
 func TestGeoPackageReadLeavesNoFiles(t *testing.T) {
