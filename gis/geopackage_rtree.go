@@ -61,7 +61,7 @@ type rtreeNode struct {
 
 // gpkgLoadRtree fills the empty R*Tree rtree (just created) with the boxes
 // of the rows that have one (has[i]); row i's id is its fid, i+1.
-func gpkgLoadRtree(tx *sql.Tx, rtree string, boxes []orb.Bound, has []bool) error {
+func gpkgLoadRtree(tx *gpkgTx, rtree string, boxes []orb.Bound, has []bool) error {
 	var nodeBytes int
 	if err := tx.QueryRow("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1").Scan(&nodeBytes); err != nil {
 		return fmt.Errorf("reading the spatial index root: %w", err)
@@ -181,7 +181,7 @@ func rtreeCover(cells []rtreeCell) rtreeCell {
 // rtreeWrite stores the packed levels in rtree's shadow tables: the root
 // over the empty node 1, every other node with its parent, and each
 // feature's leaf.
-func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
+func rtreeWrite(tx *gpkgTx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
 	depth := len(levels) - 1
 	if depth > math.MaxUint16 {
 		return fmt.Errorf("spatial index %d levels deep", depth+1)
@@ -225,7 +225,7 @@ func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) e
 // rtreeWriteRowids maps each feature to its leaf, in fid order (so the
 // table's B-tree is appended to, never split in the middle), many rows to
 // a statement.
-func rtreeWriteRowids(tx *sql.Tx, table string, leaves []rtreeNode) error {
+func rtreeWriteRowids(tx *gpkgTx, table string, leaves []rtreeNode) error {
 	var pairs [][2]int64
 	for _, n := range leaves {
 		for _, c := range n.cells {

@@ -1,7 +1,9 @@
 package gis
 
 import (
+	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -318,6 +320,12 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 		}
 	}()
 	db.SetMaxOpenConns(1) // PRAGMAs, the transaction and the statements share one connection
+	ctx := context.Background()
+	conn, err := db.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	defer conn.Close() // before db.Close, deferred above
 	for _, p := range []string{
 		"PRAGMA application_id = " + strconv.Itoa(gpkgApplicationID),
 		"PRAGMA user_version = " + strconv.Itoa(gpkgUserVersion),
@@ -325,14 +333,15 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 		"PRAGMA synchronous = OFF",     // it is synced once, when complete
 		"PRAGMA cache_size = -65536",   // 64 MiB of page cache: the R-tree load touches its nodes at random
 	} {
-		if _, err := db.Exec(p); err != nil {
+		if _, err := conn.ExecContext(ctx, p); err != nil {
 			return fmt.Errorf("%s: %w", p, err)
 		}
 	}
-	tx, err := db.Begin()
+	sqlTx, err := conn.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}
+	tx := &gpkgTx{Tx: sqlTx, conn: conn}
 	defer func() {
 		if err != nil {
 			tx.Rollback()
@@ -349,7 +358,7 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 	return tx.Commit()
 }
 
-func gpkgWriteCore(tx *sql.Tx, srsRows []gpkgSRSRow) error {
+func gpkgWriteCore(tx *gpkgTx, srsRows []gpkgSRSRow) error {
 	for _, ddl := range gpkgCoreDDL {
 		if _, err := tx.Exec(ddl); err != nil {
 			return fmt.Errorf("creating the GeoPackage tables: %w", err)
@@ -381,7 +390,7 @@ func gpkgSQLType(k Kind) string {
 }
 
 // gpkgWriteTable creates, fills and indexes one feature table.
-func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
+func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 	l := p.layer
 	t := gpkgQuote(l.Name)
 	defs := []string{gpkgQuote(gpkgFidColumn) + " INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL", gpkgQuote(gpkgGeomColumn) + " " + p.geomType}
@@ -393,50 +402,21 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 	if _, err := tx.Exec("CREATE TABLE " + t + " (" + strings.Join(defs, ", ") + ")"); err != nil {
 		return fmt.Errorf("creating table %q: %w", l.Name, err)
 	}
-	ins := gpkgInserter{tx: tx, head: "INSERT INTO " + t + " (" + strings.Join(names, ", ") + ") VALUES ", columns: len(names)}
-	defer ins.close()
-	boxes := make([]orb.Bound, len(l.Rows))
-	has := make([]bool, len(l.Rows))
-	var extent orb.Bound
-	haveExtent := false
-	var blobs []byte // the chunk's geometries, end to end
+	w := gpkgFeatures{file: file, srsID: srsID, plan: p,
+		ins:   newGpkgInserter(tx, "INSERT INTO "+t+" ("+strings.Join(names, ", ")+") VALUES ", len(names), gpkgRowsPerInsert),
+		boxes: make([]orb.Bound, len(l.Rows)), has: make([]bool, len(l.Rows))}
+	defer w.ins.close()
 	for i, r := range l.Rows {
-		if len(r.Values) != len(l.Columns) {
-			return &FieldError{File: file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
-		}
-		if ins.pending == 0 {
-			blobs = blobs[:0]
-		}
-		var geom any
-		if g := gpkgPromote(r.Geometry, p.promote); gpkgWritable(g) {
-			boxes[i], has[i] = g.Bound(), true
-			start := len(blobs)
-			blobs = gpkgEncodeGeometry(blobs, srsID, g, boxes[i])
-			geom = blobs[start:len(blobs):len(blobs)]
-			if haveExtent {
-				extent = extent.Union(boxes[i])
-			} else {
-				extent, haveExtent = boxes[i], true
-			}
-		}
-		ins.args = append(ins.args, int64(i+1), geom)
-		for j, c := range l.Columns {
-			v, err := gpkgBind(c, r.Values[j])
-			if err != nil {
-				return &FieldError{File: file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
-			}
-			ins.args = append(ins.args, v)
-		}
-		if err := ins.rowDone(); err != nil {
-			return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+		if err := w.add(i, r); err != nil {
+			return err
 		}
 	}
-	if err := ins.flush(); err != nil {
+	if err := w.ins.flush(); err != nil {
 		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
 	var bounds [4]any
-	if haveExtent {
-		bounds = [4]any{extent.Min[0], extent.Min[1], extent.Max[0], extent.Max[1]}
+	if w.haveExtent {
+		bounds = [4]any{w.extent.Min[0], w.extent.Min[1], w.extent.Max[0], w.extent.Max[1]}
 	}
 	if _, err := tx.Exec(`INSERT INTO gpkg_contents (table_name, data_type, identifier, description, last_change, min_x, min_y, max_x, max_y, srs_id) VALUES (?, 'features', ?, '', ?, ?, ?, ?, ?, ?)`,
 		l.Name, l.Name, gpkgLastChange, bounds[0], bounds[1], bounds[2], bounds[3], srsID); err != nil {
@@ -446,7 +426,57 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 		l.Name, gpkgGeomColumn, p.geomType, srsID); err != nil {
 		return fmt.Errorf("table %q: gpkg_geometry_columns: %w", l.Name, err)
 	}
-	return gpkgWriteRtree(tx, l.Name, boxes, has)
+	return gpkgWriteRtree(tx, l.Name, w.boxes, w.has)
+}
+
+// gpkgFeatures fills one feature table: each row's geometry blob and
+// values go to the inserter, its envelope to the R-tree and the extent.
+type gpkgFeatures struct {
+	file       string
+	srsID      int32
+	plan       gpkgPlan
+	ins        *gpkgInserter
+	boxes      []orb.Bound // row i's envelope, if has[i]
+	has        []bool
+	extent     orb.Bound
+	haveExtent bool
+	blobs      []byte // the pending rows' geometries, end to end; the driver copies them when it binds
+}
+
+// add writes row i (0-based; its fid is i+1).
+func (w *gpkgFeatures) add(i int, r Row) error {
+	l, in := w.plan.layer, w.ins
+	if len(r.Values) != len(l.Columns) {
+		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
+	}
+	if in.pending == 0 {
+		w.blobs = w.blobs[:0]
+	}
+	var geom driver.Value
+	if g := gpkgPromote(r.Geometry, w.plan.promote); gpkgWritable(g) {
+		w.boxes[i], w.has[i] = g.Bound(), true
+		start := len(w.blobs)
+		w.blobs = gpkgEncodeGeometry(w.blobs, w.srsID, g, w.boxes[i])
+		geom = w.blobs[start:len(w.blobs):len(w.blobs)]
+		if w.haveExtent {
+			w.extent = w.extent.Union(w.boxes[i])
+		} else {
+			w.extent, w.haveExtent = w.boxes[i], true
+		}
+	}
+	in.set(0, int64(i+1))
+	in.set(1, geom)
+	for j, c := range l.Columns {
+		v, err := gpkgBind(c, r.Values[j])
+		if err != nil {
+			return &FieldError{File: w.file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+		}
+		in.set(2+j, v)
+	}
+	if err := in.rowDone(); err != nil {
+		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	}
+	return nil
 }
 
 // gpkgRowsPerInsert is how many rows one INSERT statement writes at most:
@@ -458,22 +488,82 @@ const (
 	gpkgMaxParameters = 32_766
 )
 
-// gpkgInserter writes the rows of one table several to a statement, in
-// row order: rowDone after a row's values are appended to args, flush at
-// the end for the rows left over.
-type gpkgInserter struct {
-	tx      *sql.Tx
-	head    string // "INSERT INTO t (columns) VALUES "
-	columns int    // values per row
-	args    []any  // the values of the pending rows
-	pending int    // rows in args
-	written int    // rows written before them
-	full    *sql.Stmt
+// gpkgTx is the transaction a GeoPackage is built in and the connection
+// it runs on. DDL and the few single rows go through database/sql; the
+// bulk rows (gpkgInserter) go to the driver's connection itself.
+type gpkgTx struct {
+	*sql.Tx
+	conn *sql.Conn
 }
 
-// perStatement is how many rows a full statement holds.
-func (in *gpkgInserter) perStatement() int {
-	return max(1, min(gpkgRowsPerInsert, gpkgMaxParameters/in.columns))
+// prepare prepares query on the driver's connection. The statement is
+// used, and closed, only through execRaw and closeRaw.
+func (tx *gpkgTx) prepare(query string) (st driver.StmtExecContext, err error) {
+	err = tx.conn.Raw(func(dc any) error {
+		pc, ok := dc.(driver.ConnPrepareContext)
+		if !ok {
+			return fmt.Errorf("the SQLite driver's connection %T cannot prepare with a context", dc)
+		}
+		ds, err := pc.PrepareContext(context.Background(), query)
+		if err != nil {
+			return err
+		}
+		if st, ok = ds.(driver.StmtExecContext); !ok {
+			ds.Close()
+			return fmt.Errorf("the SQLite driver's statement %T cannot execute with a context", ds)
+		}
+		return nil
+	})
+	return st, err
+}
+
+// execRaw runs st with args, values the SQLite driver binds as they are
+// (int64, float64, string, []byte, nil).
+func (tx *gpkgTx) execRaw(st driver.StmtExecContext, args []driver.NamedValue) error {
+	return tx.conn.Raw(func(any) error {
+		_, err := st.ExecContext(context.Background(), args)
+		return err
+	})
+}
+
+// closeRaw closes a statement from prepare.
+func (tx *gpkgTx) closeRaw(st driver.StmtExecContext) error {
+	return tx.conn.Raw(func(any) error { return st.(driver.Stmt).Close() })
+}
+
+// gpkgInserter writes the rows of one table several to a statement, in
+// row order: set each column of a row, then rowDone; flush at the end for
+// the rows left over. Full statements re-run one statement prepared once,
+// on the driver's connection with the arguments as the driver takes them
+// (driver.NamedValue, reused from one statement to the next): through
+// database/sql every execution checked and copied every argument again
+// (driverArgsConnLocked), a quarter of the cost of writing a wide table.
+type gpkgInserter struct {
+	tx      *gpkgTx
+	head    string              // "INSERT INTO t (columns) VALUES "
+	columns int                 // values per row
+	per     int                 // rows of a full statement
+	args    []driver.NamedValue // per rows of values, Ordinal 1, 2, ... set once
+	pending int                 // rows in args
+	written int                 // rows written before them
+	full    driver.StmtExecContext
+}
+
+// newGpkgInserter writes rows of columns values with head, up to
+// rowsPerStatement rows (and gpkgMaxParameters values) a statement.
+func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gpkgInserter {
+	per := max(1, min(rowsPerStatement, gpkgMaxParameters/columns))
+	args := make([]driver.NamedValue, per*columns)
+	for k := range args {
+		args[k].Ordinal = k + 1
+	}
+	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: args}
+}
+
+// set stores the value of column j of the pending row: nil (NULL), or an
+// int64, float64, string or []byte. Every column of a row must be set.
+func (in *gpkgInserter) set(j int, v driver.Value) {
+	in.args[in.pending*in.columns+j].Value = v
 }
 
 // statement is the INSERT of rows rows.
@@ -482,21 +572,21 @@ func (in *gpkgInserter) statement(rows int) string {
 	return in.head + strings.TrimSuffix(strings.Repeat(row+", ", rows), ", ")
 }
 
-// rowDone counts the row just appended and writes the pending rows once
-// they fill a statement.
+// rowDone counts the row just set and writes the pending rows once they
+// fill a statement.
 func (in *gpkgInserter) rowDone() error {
 	in.pending++
-	if in.pending < in.perStatement() {
+	if in.pending < in.per {
 		return nil
 	}
 	if in.full == nil {
-		st, err := in.tx.Prepare(in.statement(in.pending))
+		st, err := in.tx.prepare(in.statement(in.per))
 		if err != nil {
-			return err
+			return in.done(err)
 		}
 		in.full = st
 	}
-	return in.done(in.full.Exec(in.args...))
+	return in.done(in.tx.execRaw(in.full, in.args))
 }
 
 // flush writes the rows that did not fill a statement.
@@ -504,23 +594,32 @@ func (in *gpkgInserter) flush() error {
 	if in.pending == 0 {
 		return nil
 	}
-	return in.done(in.tx.Exec(in.statement(in.pending), in.args...))
+	st, err := in.tx.prepare(in.statement(in.pending))
+	if err != nil {
+		return in.done(err)
+	}
+	err = in.tx.execRaw(st, in.args[:in.pending*in.columns])
+	if cerr := in.tx.closeRaw(st); err == nil {
+		err = cerr
+	}
+	return in.done(err)
 }
 
 // done empties the pending rows once written; an error names their
 // feature numbers (1-based, as the fids).
-func (in *gpkgInserter) done(_ sql.Result, err error) error {
+func (in *gpkgInserter) done(err error) error {
 	if err != nil {
 		return fmt.Errorf("writing features %d–%d: %w", in.written+1, in.written+in.pending, err)
 	}
 	in.written += in.pending
-	in.args, in.pending = in.args[:0], 0
+	in.pending = 0
 	return nil
 }
 
 func (in *gpkgInserter) close() {
 	if in.full != nil {
-		in.full.Close()
+		in.tx.closeRaw(in.full)
+		in.full = nil
 	}
 }
 
@@ -528,7 +627,7 @@ func (in *gpkgInserter) close() {
 // the extension row, the virtual table packed with each row's envelope
 // (gpkgLoadRtree), and then the triggers that keep it current when other
 // programs edit the file.
-func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) error {
+func gpkgWriteRtree(tx *gpkgTx, table string, boxes []orb.Bound, has []bool) error {
 	rtree := "rtree_" + table + "_" + gpkgGeomColumn
 	if _, err := tx.Exec(`INSERT INTO gpkg_extensions (table_name, column_name, extension_name, definition, scope) VALUES (?, ?, 'gpkg_rtree_index', ?, 'write-only')`,
 		table, gpkgGeomColumn, gpkgRtreeDefinition); err != nil {
