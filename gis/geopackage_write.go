@@ -762,7 +762,8 @@ func gpkgAppendWKB(buf []byte, g orb.Geometry) []byte {
 }
 
 // gpkgBind converts a Row value to what is stored in a column of c.Kind
-// (see WriteGeoPackage); nil means SQL NULL.
+// (see WriteGeoPackage); nil means SQL NULL. A value already of the stored
+// type and value is returned as it came, so that it is not boxed again.
 func gpkgBind(c Column, v any) (any, error) {
 	if v == nil {
 		return nil, nil
@@ -778,6 +779,9 @@ func gpkgBind(c Column, v any) (any, error) {
 		}
 		return string(text), nil
 	case Integer:
+		if _, ok := v.(int64); ok {
+			return v, nil
+		}
 		return gpkgInteger(v)
 	case Real:
 		f, ok, err := gpkgReal(v)
@@ -785,12 +789,58 @@ func gpkgBind(c Column, v any) (any, error) {
 			return nil, err
 		}
 		if c.Decimals >= 0 {
-			text, _, _ := formatFloat(nil, c, f)
-			f, _ = strconv.ParseFloat(string(text), 64)
+			f = gpkgRound(c, f)
+		}
+		if x, ok := v.(float64); ok && math.Float64bits(x) == math.Float64bits(f) {
+			return v, nil
 		}
 		return f, nil
 	}
 	return nil, fmt.Errorf("unknown column kind %v", c.Kind)
+}
+
+// gpkgPow10 holds 10^k for k = 0…22, the powers of ten a float64 holds
+// exactly (5^22 < 2^53).
+var gpkgPow10 = func() (p [23]float64) {
+	p[0] = 1
+	for k := 1; k < len(p); k++ {
+		p[k] = p[k-1] * 10
+	}
+	return p
+}()
+
+// gpkgRound is the finite f rounded to c.Decimals ≥ 0 places as the CSV
+// and GeoJSON writers print it, read back: strconv.ParseFloat of
+// formatFloat's text. It takes the shortcut the text would, without the
+// text, when it can prove the same result; otherwise it formats and parses.
+//
+// The shortcut (d = c.Decimals ≤ 22, p = 10^d exact): y = f·p rounded to
+// a float64 is within |y|·2^-53 of the exact product, so when y's
+// fraction is farther than that from ½ the exact product rounds to the
+// same integer n = round(y), and n is the number formatFloat prints, as
+// n·10^-d (strconv rounds the exact binary value of f correctly). With
+// |n| < 2^51 and p exact, the float64 division n/p is correctly rounded,
+// the double nearest n·10^-d, which is what ParseFloat returns for the
+// text (W. D. Clinger, "How to read floating point numbers accurately",
+// PLDI 1990: the fast path strconv itself takes). n = 0 gives +0, as
+// formatFloat prints no "-0". The margin used is 4 times that bound.
+func gpkgRound(c Column, f float64) float64 {
+	if d := c.Decimals; d < len(gpkgPow10) {
+		y := float64(f * gpkgPow10[d]) // float64(): rounded here, not fused into what follows
+		if a := math.Abs(y); a < 1<<51 {
+			frac := a - math.Floor(a) // exact below 2^52
+			if math.Abs(frac-0.5) > a*0x1p-51 {
+				n := math.Round(y)
+				if n == 0 {
+					return 0
+				}
+				return n / gpkgPow10[d]
+			}
+		}
+	}
+	text, _, _ := formatFloat(nil, c, f)
+	r, _ := strconv.ParseFloat(string(text), 64)
+	return r
 }
 
 func gpkgInteger(v any) (any, error) {
