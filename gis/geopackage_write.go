@@ -1,6 +1,7 @@
 package gis
 
 import (
+	"cmp"
 	"context"
 	"database/sql"
 	"database/sql/driver"
@@ -547,6 +548,7 @@ type gpkgInserter struct {
 	pending int                 // rows in args
 	written int                 // rows written before them
 	full    driver.StmtExecContext
+	noun    string // what the rows are, for errors; "features" if empty
 }
 
 // newGpkgInserter writes rows of columns values with head, up to
@@ -606,10 +608,11 @@ func (in *gpkgInserter) flush() error {
 }
 
 // done empties the pending rows once written; an error names their
-// feature numbers (1-based, as the fids).
+// numbers (1-based; for features, the fids).
 func (in *gpkgInserter) done(err error) error {
 	if err != nil {
-		return fmt.Errorf("writing features %d–%d: %w", in.written+1, in.written+in.pending, err)
+		noun := cmp.Or(in.noun, "features")
+		return fmt.Errorf("writing %s %d–%d: %w", noun, in.written+1, in.written+in.pending, err)
 	}
 	in.written += in.pending
 	in.pending = 0
