@@ -145,7 +145,7 @@ func rtreePack(cells []rtreeCell, fanout int) [][]rtreeNode {
 func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
 	keyed := make([]rtreeKeyed, len(cells))
 	for k, c := range cells {
-		keyed[k] = rtreeKeyed{key: float64(c.minX) + float64(c.maxX), cell: c} // twice the centre's x
+		keyed[k] = rtreeKeyed{key: rtreeOrderKey(float64(c.minX) + float64(c.maxX)), cell: c} // twice the centre's x
 	}
 	slices.SortFunc(keyed, rtreeByKey)
 	nodes := (len(keyed) + fanout - 1) / fanout
@@ -156,7 +156,7 @@ func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
 	for s := 0; s < len(keyed); s += per {
 		slice := keyed[s:min(s+per, len(keyed))]
 		for k := range slice {
-			slice[k].key = float64(slice[k].cell.minY) + float64(slice[k].cell.maxY)
+			slice[k].key = rtreeOrderKey(float64(slice[k].cell.minY) + float64(slice[k].cell.maxY))
 		}
 		slices.SortFunc(slice, rtreeByKey)
 		for k := range slice {
@@ -171,14 +171,32 @@ func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
 }
 
 // rtreeKeyed is a cell with the coordinate it is sorted by, computed once
-// rather than in every comparison.
+// rather than in every comparison, as an unsigned integer that orders as
+// the coordinate does (rtreeOrderKey).
 type rtreeKeyed struct {
-	key  float64
+	key  uint64
 	cell rtreeCell
 }
 
+// rtreeOrderKey maps x to an integer in the order of the floats, −0 and +0
+// to the same one: the sign bit set for positive x, all bits flipped for
+// negative x (the usual radix-sort key of IEEE 754 doubles).
+func rtreeOrderKey(x float64) uint64 {
+	b := math.Float64bits(x + 0) // −0 + 0 = +0
+	if b>>63 != 0 {
+		return ^b
+	}
+	return b | 1<<63
+}
+
 func rtreeByKey(a, b rtreeKeyed) int {
-	return cmp.Or(cmp.Compare(a.key, b.key), cmp.Compare(a.cell.id, b.cell.id))
+	switch {
+	case a.key < b.key:
+		return -1
+	case a.key > b.key:
+		return 1
+	}
+	return cmp.Compare(a.cell.id, b.cell.id)
 }
 
 // rtreeCover is the box around cells.
