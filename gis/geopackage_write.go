@@ -395,7 +395,7 @@ func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 	l := p.layer
 	t := gpkgQuote(l.Name)
 	defs := []string{gpkgQuote(gpkgFidColumn) + " INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL", gpkgQuote(gpkgGeomColumn) + " " + p.geomType}
-	names := []string{gpkgQuote(gpkgFidColumn), gpkgQuote(gpkgGeomColumn)}
+	names := []string{gpkgQuote(gpkgGeomColumn)} // the fid is SQLite's to give (gpkgCheckFids)
 	for _, c := range l.Columns {
 		defs = append(defs, gpkgQuote(c.Name)+" "+gpkgSQLType(c.Kind))
 		names = append(names, gpkgQuote(c.Name))
@@ -415,6 +415,9 @@ func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 	if err := w.ins.flush(); err != nil {
 		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
+	if err := gpkgCheckFids(tx, l.Name, w.ins.written); err != nil {
+		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	}
 	var bounds [4]any
 	if w.haveExtent {
 		bounds = [4]any{w.extent.Min[0], w.extent.Min[1], w.extent.Max[0], w.extent.Max[1]}
@@ -428,6 +431,24 @@ func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 		return fmt.Errorf("table %q: gpkg_geometry_columns: %w", l.Name, err)
 	}
 	return gpkgWriteRtree(tx, l.Name, w.boxes, w.has)
+}
+
+// gpkgCheckFids checks that SQLite numbered the n rows just inserted into
+// the new table 1, 2, … n in row order, as the R-tree and the error
+// messages take them to be. The INSERTs leave the fid out: SQLite then
+// picks it without the uniqueness search a given key costs, and binds one
+// value less a row. An AUTOINCREMENT key is larger than any the table ever
+// had (sqlite.org/autoinc.html), so the keys rise row by row from at least
+// 1, and n rising keys from 1 up whose largest is n are exactly 1 … n.
+func gpkgCheckFids(tx *gpkgTx, table string, n int) error {
+	var last sql.NullInt64
+	if err := tx.QueryRow("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table)).Scan(&last); err != nil {
+		return fmt.Errorf("reading the last fid: %w", err)
+	}
+	if last.Int64 != int64(n) {
+		return fmt.Errorf("SQLite numbered %d features up to fid %d, not 1 to %d", n, last.Int64, n)
+	}
+	return nil
 }
 
 // gpkgFeatures fills one feature table: each row's geometry blob and
@@ -444,7 +465,7 @@ type gpkgFeatures struct {
 	blobs      []byte // the pending rows' geometries, end to end; the driver copies them when it binds
 }
 
-// add writes row i (0-based; its fid is i+1).
+// add writes row i (0-based; SQLite gives it fid i+1, gpkgCheckFids).
 func (w *gpkgFeatures) add(i int, r Row) error {
 	l, in := w.plan.layer, w.ins
 	if len(r.Values) != len(l.Columns) {
@@ -465,14 +486,13 @@ func (w *gpkgFeatures) add(i int, r Row) error {
 			w.extent, w.haveExtent = w.boxes[i], true
 		}
 	}
-	in.set(0, int64(i+1))
-	in.set(1, geom)
+	in.set(0, geom)
 	for j, c := range l.Columns {
 		v, err := gpkgBind(c, r.Values[j])
 		if err != nil {
 			return &FieldError{File: w.file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 		}
-		in.set(2+j, v)
+		in.set(1+j, v)
 	}
 	if err := in.rowDone(); err != nil {
 		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
