@@ -558,7 +558,8 @@ func (tx *gpkgTx) closeRaw(st driver.StmtExecContext) error {
 // on the driver's connection with the arguments as the driver takes them
 // (driver.NamedValue, reused from one statement to the next): through
 // database/sql every execution checked and copied every argument again
-// (driverArgsConnLocked), a quarter of the cost of writing a wide table.
+// (driverArgsConnLocked: 6.5 s of the 24 s CPU that writing pipes.gpkg and
+// nodes.gpkg took on the 1,000,000-main demo town).
 type gpkgInserter struct {
 	tx      *gpkgTx
 	head    string              // "INSERT INTO t (columns) VALUES "
