@@ -2,12 +2,10 @@ package gis
 
 import (
 	"cmp"
-	"database/sql"
 	"encoding/binary"
 	"fmt"
 	"math"
 	"slices"
-	"strings"
 
 	"github.com/paulmach/orb"
 )
@@ -61,7 +59,7 @@ type rtreeNode struct {
 
 // gpkgLoadRtree fills the empty R*Tree rtree (just created) with the boxes
 // of the rows that have one (has[i]); row i's id is its fid, i+1.
-func gpkgLoadRtree(tx *sql.Tx, rtree string, boxes []orb.Bound, has []bool) error {
+func gpkgLoadRtree(tx *gpkgTx, rtree string, boxes []orb.Bound, has []bool) error {
 	var nodeBytes int
 	if err := tx.QueryRow("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1").Scan(&nodeBytes); err != nil {
 		return fmt.Errorf("reading the spatial index root: %w", err)
@@ -145,27 +143,60 @@ func rtreePack(cells []rtreeCell, fanout int) [][]rtreeNode {
 // slices (P = ⌈n/fanout⌉ nodes), and each slice, sorted by y, into runs of
 // fanout. Ties fall back to the id, so the tree repeats exactly.
 func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
-	cells = slices.Clone(cells)
-	byCentre := func(x func(c rtreeCell) float64) func(a, b rtreeCell) int {
-		return func(a, b rtreeCell) int {
-			return cmp.Or(cmp.Compare(x(a), x(b)), cmp.Compare(a.id, b.id))
-		}
+	keyed := make([]rtreeKeyed, len(cells))
+	for k, c := range cells {
+		keyed[k] = rtreeKeyed{key: rtreeOrderKey(float64(c.minX) + float64(c.maxX)), cell: c} // twice the centre's x
 	}
-	centreX := func(c rtreeCell) float64 { return float64(c.minX) + float64(c.maxX) }
-	centreY := func(c rtreeCell) float64 { return float64(c.minY) + float64(c.maxY) }
-	slices.SortFunc(cells, byCentre(centreX))
-	nodes := (len(cells) + fanout - 1) / fanout
+	slices.SortFunc(keyed, rtreeByKey)
+	nodes := (len(keyed) + fanout - 1) / fanout
 	slices2 := int(math.Ceil(math.Sqrt(float64(nodes))))
 	per := slices2 * fanout // cells per vertical slice
+	sorted := make([]rtreeCell, len(keyed))
 	out := make([]rtreeNode, 0, nodes)
-	for s := 0; s < len(cells); s += per {
-		slice := cells[s:min(s+per, len(cells))]
-		slices.SortFunc(slice, byCentre(centreY))
+	for s := 0; s < len(keyed); s += per {
+		slice := keyed[s:min(s+per, len(keyed))]
+		for k := range slice {
+			slice[k].key = rtreeOrderKey(float64(slice[k].cell.minY) + float64(slice[k].cell.maxY))
+		}
+		slices.SortFunc(slice, rtreeByKey)
+		for k := range slice {
+			sorted[s+k] = slice[k].cell
+		}
 		for k := 0; k < len(slice); k += fanout {
-			out = append(out, rtreeNode{cells: slice[k:min(k+fanout, len(slice)):min(k+fanout, len(slice))]})
+			end := s + min(k+fanout, len(slice))
+			out = append(out, rtreeNode{cells: sorted[s+k : end : end]})
 		}
 	}
 	return out
+}
+
+// rtreeKeyed is a cell with the coordinate it is sorted by, computed once
+// rather than in every comparison, as an unsigned integer that orders as
+// the coordinate does (rtreeOrderKey).
+type rtreeKeyed struct {
+	key  uint64
+	cell rtreeCell
+}
+
+// rtreeOrderKey maps x to an integer in the order of the floats, −0 and +0
+// to the same one: the sign bit set for positive x, all bits flipped for
+// negative x (the usual radix-sort key of IEEE 754 doubles).
+func rtreeOrderKey(x float64) uint64 {
+	b := math.Float64bits(x + 0) // −0 + 0 = +0
+	if b>>63 != 0 {
+		return ^b
+	}
+	return b | 1<<63
+}
+
+func rtreeByKey(a, b rtreeKeyed) int {
+	switch {
+	case a.key < b.key:
+		return -1
+	case a.key > b.key:
+		return 1
+	}
+	return cmp.Compare(a.cell.id, b.cell.id)
 }
 
 // rtreeCover is the box around cells.
@@ -180,8 +211,8 @@ func rtreeCover(cells []rtreeCell) rtreeCell {
 
 // rtreeWrite stores the packed levels in rtree's shadow tables: the root
 // over the empty node 1, every other node with its parent, and each
-// feature's leaf.
-func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
+// feature's leaf, many rows to a statement (gpkgInserter).
+func rtreeWrite(tx *gpkgTx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
 	depth := len(levels) - 1
 	if depth > math.MaxUint16 {
 		return fmt.Errorf("spatial index %d levels deep", depth+1)
@@ -192,20 +223,24 @@ func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) e
 		return fmt.Errorf("writing the spatial index root: %w", err)
 	}
 	q := func(suffix string) string { return gpkgQuote(rtree + "_" + suffix) }
-	insNode, err := tx.Prepare("INSERT INTO " + q("node") + " (nodeno, data) VALUES (?, ?)")
-	if err != nil {
-		return fmt.Errorf("spatial index: %w", err)
-	}
-	defer insNode.Close()
-	insParent, err := tx.Prepare("INSERT INTO " + q("parent") + " (nodeno, parentnode) VALUES (?, ?)")
-	if err != nil {
-		return fmt.Errorf("spatial index: %w", err)
-	}
-	defer insParent.Close()
+	insNode := newGpkgInserter(tx, "INSERT INTO "+q("node")+" (nodeno, data) VALUES ", 2, gpkgRowsPerInsert)
+	insNode.noun = "spatial index nodes"
+	defer insNode.close()
+	insParent := newGpkgInserter(tx, "INSERT INTO "+q("parent")+" (nodeno, parentnode) VALUES ", 2, rtreeRowsPerInsert)
+	insParent.noun = "spatial index parents"
+	defer insParent.close()
+	var blobs []byte // the pending nodes' data, end to end
 	for l := depth; l >= 0; l-- {
 		for _, n := range levels[l] {
 			if l < depth {
-				if _, err := insNode.Exec(n.no, rtreeEncode(blob, 0, n.cells)); err != nil {
+				if insNode.pending == 0 {
+					blobs = blobs[:0]
+				}
+				start := len(blobs)
+				blobs = append(blobs, make([]byte, nodeBytes)...)
+				insNode.set(0, n.no)
+				insNode.set(1, rtreeEncode(blobs[start:len(blobs):len(blobs)], 0, n.cells))
+				if err := insNode.rowDone(); err != nil {
 					return fmt.Errorf("spatial index node %d: %w", n.no, err)
 				}
 			}
@@ -213,19 +248,31 @@ func rtreeWrite(tx *sql.Tx, rtree string, nodeBytes int, levels [][]rtreeNode) e
 				continue
 			}
 			for _, c := range n.cells {
-				if _, err := insParent.Exec(c.id, n.no); err != nil {
+				insParent.set(0, c.id)
+				insParent.set(1, n.no)
+				if err := insParent.rowDone(); err != nil {
 					return fmt.Errorf("spatial index node %d: %w", c.id, err)
 				}
 			}
 		}
 	}
+	if err := insNode.flush(); err != nil {
+		return err
+	}
+	if err := insParent.flush(); err != nil {
+		return err
+	}
 	return rtreeWriteRowids(tx, q("rowid"), levels[0])
 }
+
+// rtreeRowsPerInsert is how many rows of two integers one INSERT into a
+// shadow table writes at most.
+const rtreeRowsPerInsert = 500
 
 // rtreeWriteRowids maps each feature to its leaf, in fid order (so the
 // table's B-tree is appended to, never split in the middle), many rows to
 // a statement.
-func rtreeWriteRowids(tx *sql.Tx, table string, leaves []rtreeNode) error {
+func rtreeWriteRowids(tx *gpkgTx, table string, leaves []rtreeNode) error {
 	var pairs [][2]int64
 	for _, n := range leaves {
 		for _, c := range n.cells {
@@ -233,34 +280,17 @@ func rtreeWriteRowids(tx *sql.Tx, table string, leaves []rtreeNode) error {
 		}
 	}
 	slices.SortFunc(pairs, func(a, b [2]int64) int { return cmp.Compare(a[0], b[0]) })
-	const perStatement = 500 // 1,000 parameters, well under SQLite's 32,766
-	args := make([]any, 0, 2*perStatement)
-	var stmt *sql.Stmt
-	for start := 0; start < len(pairs); start += perStatement {
-		chunk := pairs[start:min(start+perStatement, len(pairs))]
-		if stmt == nil || len(chunk) < perStatement {
-			if stmt != nil {
-				stmt.Close()
-			}
-			var err error
-			stmt, err = tx.Prepare("INSERT INTO " + table + " (rowid, nodeno) VALUES " + strings.TrimSuffix(strings.Repeat("(?, ?), ", len(chunk)), ", "))
-			if err != nil {
-				return fmt.Errorf("spatial index: %w", err)
-			}
-		}
-		args = args[:0]
-		for _, p := range chunk {
-			args = append(args, p[0], p[1])
-		}
-		if _, err := stmt.Exec(args...); err != nil {
-			stmt.Close()
-			return fmt.Errorf("spatial index rows %d–%d: %w", chunk[0][0], chunk[len(chunk)-1][0], err)
+	ins := newGpkgInserter(tx, "INSERT INTO "+table+" (rowid, nodeno) VALUES ", 2, rtreeRowsPerInsert)
+	ins.noun = "spatial index rows"
+	defer ins.close()
+	for _, p := range pairs {
+		ins.set(0, p[0])
+		ins.set(1, p[1])
+		if err := ins.rowDone(); err != nil {
+			return err
 		}
 	}
-	if stmt != nil {
-		stmt.Close()
-	}
-	return nil
+	return ins.flush()
 }
 
 // rtreeEncode writes a node into blob (all of it: unused cells are zero)

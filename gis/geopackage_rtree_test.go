@@ -1,6 +1,7 @@
 package gis
 
 import (
+	"cmp"
 	"database/sql"
 	"math"
 	"math/rand/v2"
@@ -106,6 +107,23 @@ func TestFloat32Outward(t *testing.T) {
 		}
 		if prev := math.Nextafter32(up, float32(math.Inf(-1))); float64(prev) >= x && float64(up) != x {
 			t.Errorf("%g: up %g is not the smallest float32 above it (%g is)", x, up, prev)
+		}
+	}
+}
+
+// rtreeOrderKey orders as the floats do (cmp.Compare, the order the
+// packing sorted by before; −0 and +0 equal): over random values of all
+// magnitudes and signs, and the infinities, zeros and subnormals.
+func TestRtreeOrderKey(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 13))
+	xs := []float64{0, math.Copysign(0, -1), math.Inf(1), math.Inf(-1), 5e-324, -5e-324, math.MaxFloat64, -math.MaxFloat64, 1, -1}
+	for range 20_000 {
+		xs = append(xs, math.Float64frombits(rng.Uint64()&^(0x7ff<<52)|uint64(rng.IntN(0x7ff))<<52)) // any finite double
+	}
+	for i, a := range xs {
+		b := xs[(i*7919+1)%len(xs)]
+		if got, want := cmp.Compare(rtreeOrderKey(a), rtreeOrderKey(b)), cmp.Compare(a, b); got != want {
+			t.Fatalf("keys of %v and %v compare %d, the values %d", a, b, got, want)
 		}
 	}
 }

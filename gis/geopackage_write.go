@@ -1,7 +1,10 @@
 package gis
 
 import (
+	"cmp"
+	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -315,6 +318,12 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 		}
 	}()
 	db.SetMaxOpenConns(1) // PRAGMAs, the transaction and the statements share one connection
+	ctx := context.Background()
+	conn, err := db.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	defer conn.Close() // before db.Close, deferred above
 	for _, p := range []string{
 		"PRAGMA application_id = " + strconv.Itoa(gpkgApplicationID),
 		"PRAGMA user_version = " + strconv.Itoa(gpkgUserVersion),
@@ -322,14 +331,15 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 		"PRAGMA synchronous = OFF",     // it is synced once, when complete
 		"PRAGMA cache_size = -65536",   // 64 MiB of page cache: the R-tree load touches its nodes at random
 	} {
-		if _, err := db.Exec(p); err != nil {
+		if _, err := conn.ExecContext(ctx, p); err != nil {
 			return fmt.Errorf("%s: %w", p, err)
 		}
 	}
-	tx, err := db.Begin()
+	sqlTx, err := conn.BeginTx(ctx, nil)
 	if err != nil {
 		return err
 	}
+	tx := &gpkgTx{Tx: sqlTx, conn: conn}
 	defer func() {
 		if err != nil {
 			tx.Rollback()
@@ -346,7 +356,7 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 	return tx.Commit()
 }
 
-func gpkgWriteCore(tx *sql.Tx, srsRows []gpkgSRSRow) error {
+func gpkgWriteCore(tx *gpkgTx, srsRows []gpkgSRSRow) error {
 	for _, ddl := range gpkgCoreDDL {
 		if _, err := tx.Exec(ddl); err != nil {
 			return fmt.Errorf("creating the GeoPackage tables: %w", err)
@@ -378,11 +388,11 @@ func gpkgSQLType(k Kind) string {
 }
 
 // gpkgWriteTable creates, fills and indexes one feature table.
-func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
+func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 	l := p.layer
 	t := gpkgQuote(l.Name)
 	defs := []string{gpkgQuote(gpkgFidColumn) + " INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL", gpkgQuote(gpkgGeomColumn) + " " + p.geomType}
-	names := []string{gpkgQuote(gpkgFidColumn), gpkgQuote(gpkgGeomColumn)}
+	names := []string{gpkgQuote(gpkgGeomColumn)} // the fid is SQLite's to give (gpkgCheckFids)
 	for _, c := range l.Columns {
 		defs = append(defs, gpkgQuote(c.Name)+" "+gpkgSQLType(c.Kind))
 		names = append(names, gpkgQuote(c.Name))
@@ -390,52 +400,25 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 	if _, err := tx.Exec("CREATE TABLE " + t + " (" + strings.Join(defs, ", ") + ")"); err != nil {
 		return fmt.Errorf("creating table %q: %w", l.Name, err)
 	}
-	ins := gpkgInserter{tx: tx, head: "INSERT INTO " + t + " (" + strings.Join(names, ", ") + ") VALUES ", columns: len(names)}
-	defer ins.close()
-	n, rd := l.Len(), l.Reader()
-	boxes := make([]orb.Bound, n)
-	has := make([]bool, n)
-	var extent orb.Bound
-	haveExtent := false
-	var blobs []byte // the chunk's geometries, end to end
-	for i := range n {
-		r := rd.Row(i)
-		if len(r.Values) != len(l.Columns) {
-			return &FieldError{File: file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
-		}
-		if ins.pending == 0 {
-			blobs = blobs[:0]
-		}
-		var geom any
-		if g := gpkgPromote(r.Geometry, p.promote); gpkgWritable(g) {
-			boxes[i], has[i] = g.Bound(), true
-			start := len(blobs)
-			blobs = gpkgEncodeGeometry(blobs, srsID, g, boxes[i])
-			geom = blobs[start:len(blobs):len(blobs)]
-			if haveExtent {
-				extent = extent.Union(boxes[i])
-			} else {
-				extent, haveExtent = boxes[i], true
-			}
-		}
-		ins.args = append(ins.args, int64(i+1), geom)
-		for j, c := range l.Columns {
-			v, err := gpkgBind(c, r.Values[j])
-			if err != nil {
-				return &FieldError{File: file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
-			}
-			ins.args = append(ins.args, v)
-		}
-		if err := ins.rowDone(); err != nil {
-			return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	w := gpkgFeatures{file: file, srsID: srsID, plan: p,
+		ins:   newGpkgInserter(tx, "INSERT INTO "+t+" ("+strings.Join(names, ", ")+") VALUES ", len(names), gpkgRowsPerInsert),
+		boxes: make([]orb.Bound, l.Len()), has: make([]bool, l.Len())}
+	defer w.ins.close()
+	rd := l.Reader()
+	for i := range l.Len() {
+		if err := w.add(i, rd.Row(i)); err != nil {
+			return err
 		}
 	}
-	if err := ins.flush(); err != nil {
+	if err := w.ins.flush(); err != nil {
+		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	}
+	if err := gpkgCheckFids(tx, l.Name, w.ins.written); err != nil {
 		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
 	var bounds [4]any
-	if haveExtent {
-		bounds = [4]any{extent.Min[0], extent.Min[1], extent.Max[0], extent.Max[1]}
+	if w.haveExtent {
+		bounds = [4]any{w.extent.Min[0], w.extent.Min[1], w.extent.Max[0], w.extent.Max[1]}
 	}
 	if _, err := tx.Exec(`INSERT INTO gpkg_contents (table_name, data_type, identifier, description, last_change, min_x, min_y, max_x, max_y, srs_id) VALUES (?, 'features', ?, '', ?, ?, ?, ?, ?, ?)`,
 		l.Name, l.Name, gpkgLastChange, bounds[0], bounds[1], bounds[2], bounds[3], srsID); err != nil {
@@ -445,7 +428,74 @@ func gpkgWriteTable(tx *sql.Tx, file string, srsID int32, p gpkgPlan) error {
 		l.Name, gpkgGeomColumn, p.geomType, srsID); err != nil {
 		return fmt.Errorf("table %q: gpkg_geometry_columns: %w", l.Name, err)
 	}
-	return gpkgWriteRtree(tx, l.Name, boxes, has)
+	return gpkgWriteRtree(tx, l.Name, w.boxes, w.has)
+}
+
+// gpkgCheckFids checks that SQLite numbered the n rows just inserted into
+// the new table 1, 2, … n in row order, as the R-tree and the error
+// messages take them to be. The INSERTs leave the fid out: SQLite then
+// picks it without the uniqueness search a given key costs, and binds one
+// value less a row. An AUTOINCREMENT key is larger than any the table ever
+// had (sqlite.org/autoinc.html), so the keys rise row by row from at least
+// 1, and n rising keys from 1 up whose largest is n are exactly 1 … n.
+func gpkgCheckFids(tx *gpkgTx, table string, n int) error {
+	var last sql.NullInt64
+	if err := tx.QueryRow("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table)).Scan(&last); err != nil {
+		return fmt.Errorf("reading the last fid: %w", err)
+	}
+	if last.Int64 != int64(n) {
+		return fmt.Errorf("SQLite numbered %d features up to fid %d, not 1 to %d", n, last.Int64, n)
+	}
+	return nil
+}
+
+// gpkgFeatures fills one feature table: each row's geometry blob and
+// values go to the inserter, its envelope to the R-tree and the extent.
+type gpkgFeatures struct {
+	file       string
+	srsID      int32
+	plan       gpkgPlan
+	ins        *gpkgInserter
+	boxes      []orb.Bound // row i's envelope, if has[i]
+	has        []bool
+	extent     orb.Bound
+	haveExtent bool
+	blobs      []byte // the pending rows' geometries, end to end; the driver copies them when it binds
+}
+
+// add writes row i (0-based; SQLite gives it fid i+1, gpkgCheckFids).
+func (w *gpkgFeatures) add(i int, r Row) error {
+	l, in := w.plan.layer, w.ins
+	if len(r.Values) != len(l.Columns) {
+		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
+	}
+	if in.pending == 0 {
+		w.blobs = w.blobs[:0]
+	}
+	var geom driver.Value
+	if g := gpkgPromote(r.Geometry, w.plan.promote); gpkgWritable(g) {
+		w.boxes[i], w.has[i] = g.Bound(), true
+		start := len(w.blobs)
+		w.blobs = gpkgEncodeGeometry(w.blobs, w.srsID, g, w.boxes[i])
+		geom = w.blobs[start:len(w.blobs):len(w.blobs)]
+		if w.haveExtent {
+			w.extent = w.extent.Union(w.boxes[i])
+		} else {
+			w.extent, w.haveExtent = w.boxes[i], true
+		}
+	}
+	in.set(0, geom)
+	for j, c := range l.Columns {
+		v, err := gpkgBind(c, r.Values[j])
+		if err != nil {
+			return &FieldError{File: w.file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+		}
+		in.set(1+j, v)
+	}
+	if err := in.rowDone(); err != nil {
+		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	}
+	return nil
 }
 
 // gpkgRowsPerInsert is how many rows one INSERT statement writes at most:
@@ -457,22 +507,84 @@ const (
 	gpkgMaxParameters = 32_766
 )
 
-// gpkgInserter writes the rows of one table several to a statement, in
-// row order: rowDone after a row's values are appended to args, flush at
-// the end for the rows left over.
-type gpkgInserter struct {
-	tx      *sql.Tx
-	head    string // "INSERT INTO t (columns) VALUES "
-	columns int    // values per row
-	args    []any  // the values of the pending rows
-	pending int    // rows in args
-	written int    // rows written before them
-	full    *sql.Stmt
+// gpkgTx is the transaction a GeoPackage is built in and the connection
+// it runs on. DDL and the few single rows go through database/sql; the
+// bulk rows (gpkgInserter) go to the driver's connection itself.
+type gpkgTx struct {
+	*sql.Tx
+	conn *sql.Conn
 }
 
-// perStatement is how many rows a full statement holds.
-func (in *gpkgInserter) perStatement() int {
-	return max(1, min(gpkgRowsPerInsert, gpkgMaxParameters/in.columns))
+// prepare prepares query on the driver's connection. The statement is
+// used, and closed, only through execRaw and closeRaw.
+func (tx *gpkgTx) prepare(query string) (st driver.StmtExecContext, err error) {
+	err = tx.conn.Raw(func(dc any) error {
+		pc, ok := dc.(driver.ConnPrepareContext)
+		if !ok {
+			return fmt.Errorf("the SQLite driver's connection %T cannot prepare with a context", dc)
+		}
+		ds, err := pc.PrepareContext(context.Background(), query)
+		if err != nil {
+			return err
+		}
+		if st, ok = ds.(driver.StmtExecContext); !ok {
+			ds.Close()
+			return fmt.Errorf("the SQLite driver's statement %T cannot execute with a context", ds)
+		}
+		return nil
+	})
+	return st, err
+}
+
+// execRaw runs st with args, values the SQLite driver binds as they are
+// (int64, float64, string, []byte, nil).
+func (tx *gpkgTx) execRaw(st driver.StmtExecContext, args []driver.NamedValue) error {
+	return tx.conn.Raw(func(any) error {
+		_, err := st.ExecContext(context.Background(), args)
+		return err
+	})
+}
+
+// closeRaw closes a statement from prepare.
+func (tx *gpkgTx) closeRaw(st driver.StmtExecContext) error {
+	return tx.conn.Raw(func(any) error { return st.(driver.Stmt).Close() })
+}
+
+// gpkgInserter writes the rows of one table several to a statement, in
+// row order: set each column of a row, then rowDone; flush at the end for
+// the rows left over. Full statements re-run one statement prepared once,
+// on the driver's connection with the arguments as the driver takes them
+// (driver.NamedValue, reused from one statement to the next): through
+// database/sql every execution checked and copied every argument again
+// (driverArgsConnLocked: 6.5 s of the 24 s CPU that writing pipes.gpkg and
+// nodes.gpkg took on the 1,000,000-main demo town).
+type gpkgInserter struct {
+	tx      *gpkgTx
+	head    string              // "INSERT INTO t (columns) VALUES "
+	columns int                 // values per row
+	per     int                 // rows of a full statement
+	args    []driver.NamedValue // per rows of values, Ordinal 1, 2, ... set once
+	pending int                 // rows in args
+	written int                 // rows written before them
+	full    driver.StmtExecContext
+	noun    string // what the rows are, for errors; "features" if empty
+}
+
+// newGpkgInserter writes rows of columns values with head, up to
+// rowsPerStatement rows (and gpkgMaxParameters values) a statement.
+func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gpkgInserter {
+	per := max(1, min(rowsPerStatement, gpkgMaxParameters/columns))
+	args := make([]driver.NamedValue, per*columns)
+	for k := range args {
+		args[k].Ordinal = k + 1
+	}
+	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: args}
+}
+
+// set stores the value of column j of the pending row: nil (NULL), or an
+// int64, float64, string or []byte. Every column of a row must be set.
+func (in *gpkgInserter) set(j int, v driver.Value) {
+	in.args[in.pending*in.columns+j].Value = v
 }
 
 // statement is the INSERT of rows rows.
@@ -481,21 +593,21 @@ func (in *gpkgInserter) statement(rows int) string {
 	return in.head + strings.TrimSuffix(strings.Repeat(row+", ", rows), ", ")
 }
 
-// rowDone counts the row just appended and writes the pending rows once
-// they fill a statement.
+// rowDone counts the row just set and writes the pending rows once they
+// fill a statement.
 func (in *gpkgInserter) rowDone() error {
 	in.pending++
-	if in.pending < in.perStatement() {
+	if in.pending < in.per {
 		return nil
 	}
 	if in.full == nil {
-		st, err := in.tx.Prepare(in.statement(in.pending))
+		st, err := in.tx.prepare(in.statement(in.per))
 		if err != nil {
-			return err
+			return in.done(err)
 		}
 		in.full = st
 	}
-	return in.done(in.full.Exec(in.args...))
+	return in.done(in.tx.execRaw(in.full, in.args))
 }
 
 // flush writes the rows that did not fill a statement.
@@ -503,23 +615,33 @@ func (in *gpkgInserter) flush() error {
 	if in.pending == 0 {
 		return nil
 	}
-	return in.done(in.tx.Exec(in.statement(in.pending), in.args...))
+	st, err := in.tx.prepare(in.statement(in.pending))
+	if err != nil {
+		return in.done(err)
+	}
+	err = in.tx.execRaw(st, in.args[:in.pending*in.columns])
+	if cerr := in.tx.closeRaw(st); err == nil {
+		err = cerr
+	}
+	return in.done(err)
 }
 
 // done empties the pending rows once written; an error names their
-// feature numbers (1-based, as the fids).
-func (in *gpkgInserter) done(_ sql.Result, err error) error {
+// numbers (1-based; for features, the fids).
+func (in *gpkgInserter) done(err error) error {
 	if err != nil {
-		return fmt.Errorf("writing features %d–%d: %w", in.written+1, in.written+in.pending, err)
+		noun := cmp.Or(in.noun, "features")
+		return fmt.Errorf("writing %s %d–%d: %w", noun, in.written+1, in.written+in.pending, err)
 	}
 	in.written += in.pending
-	in.args, in.pending = in.args[:0], 0
+	in.pending = 0
 	return nil
 }
 
 func (in *gpkgInserter) close() {
 	if in.full != nil {
-		in.full.Close()
+		in.tx.closeRaw(in.full)
+		in.full = nil
 	}
 }
 
@@ -527,7 +649,7 @@ func (in *gpkgInserter) close() {
 // the extension row, the virtual table packed with each row's envelope
 // (gpkgLoadRtree), and then the triggers that keep it current when other
 // programs edit the file.
-func gpkgWriteRtree(tx *sql.Tx, table string, boxes []orb.Bound, has []bool) error {
+func gpkgWriteRtree(tx *gpkgTx, table string, boxes []orb.Bound, has []bool) error {
 	rtree := "rtree_" + table + "_" + gpkgGeomColumn
 	if _, err := tx.Exec(`INSERT INTO gpkg_extensions (table_name, column_name, extension_name, definition, scope) VALUES (?, ?, 'gpkg_rtree_index', ?, 'write-only')`,
 		table, gpkgGeomColumn, gpkgRtreeDefinition); err != nil {
@@ -662,7 +784,8 @@ func gpkgAppendWKB(buf []byte, g orb.Geometry) []byte {
 }
 
 // gpkgBind converts a Row value to what is stored in a column of c.Kind
-// (see WriteGeoPackage); nil means SQL NULL.
+// (see WriteGeoPackage); nil means SQL NULL. A value already of the stored
+// type and value is returned as it came, so that it is not boxed again.
 func gpkgBind(c Column, v any) (any, error) {
 	if v == nil {
 		return nil, nil
@@ -678,6 +801,9 @@ func gpkgBind(c Column, v any) (any, error) {
 		}
 		return string(text), nil
 	case Integer:
+		if _, ok := v.(int64); ok {
+			return v, nil
+		}
 		return gpkgInteger(v)
 	case Real:
 		f, ok, err := gpkgReal(v)
@@ -685,12 +811,58 @@ func gpkgBind(c Column, v any) (any, error) {
 			return nil, err
 		}
 		if c.Decimals >= 0 {
-			text, _, _ := formatFloat(nil, c, f)
-			f, _ = strconv.ParseFloat(string(text), 64)
+			f = gpkgRound(c, f)
+		}
+		if x, ok := v.(float64); ok && math.Float64bits(x) == math.Float64bits(f) {
+			return v, nil
 		}
 		return f, nil
 	}
 	return nil, fmt.Errorf("unknown column kind %v", c.Kind)
+}
+
+// gpkgPow10 holds 10^k for k = 0…22, the powers of ten a float64 holds
+// exactly (5^22 < 2^53).
+var gpkgPow10 = func() (p [23]float64) {
+	p[0] = 1
+	for k := 1; k < len(p); k++ {
+		p[k] = p[k-1] * 10
+	}
+	return p
+}()
+
+// gpkgRound is the finite f rounded to c.Decimals ≥ 0 places as the CSV
+// and GeoJSON writers print it, read back: strconv.ParseFloat of
+// formatFloat's text. It takes the shortcut the text would, without the
+// text, when it can prove the same result; otherwise it formats and parses.
+//
+// The shortcut (d = c.Decimals ≤ 22, p = 10^d exact): y = f·p rounded to
+// a float64 is within |y|·2^-53 of the exact product, so when y's
+// fraction is farther than that from ½ the exact product rounds to the
+// same integer n = round(y), and n is the number formatFloat prints, as
+// n·10^-d (strconv rounds the exact binary value of f correctly). With
+// |n| < 2^51 and p exact, the float64 division n/p is correctly rounded,
+// the double nearest n·10^-d, which is what ParseFloat returns for the
+// text (W. D. Clinger, "How to read floating point numbers accurately",
+// PLDI 1990: the fast path strconv itself takes). n = 0 gives +0, as
+// formatFloat prints no "-0". The margin used is 4 times that bound.
+func gpkgRound(c Column, f float64) float64 {
+	if d := c.Decimals; d < len(gpkgPow10) {
+		y := float64(f * gpkgPow10[d]) // float64(): rounded here, not fused into what follows
+		if a := math.Abs(y); a < 1<<51 {
+			frac := a - math.Floor(a) // exact below 2^52
+			if math.Abs(frac-0.5) > a*0x1p-51 {
+				n := math.Round(y)
+				if n == 0 {
+					return 0
+				}
+				return n / gpkgPow10[d]
+			}
+		}
+	}
+	text, _, _ := formatFloat(nil, c, f)
+	r, _ := strconv.ParseFloat(string(text), 64)
+	return r
 }
 
 func gpkgInteger(v any) (any, error) {
