@@ -106,7 +106,8 @@ func AttachSources(t *Topology, sources []Point, maxDistance hydraulics.Length) 
 // sum of the usable demands unless every node is fixed. A demand farther
 // than warnDistance from its node is still allocated and reported;
 // warnDistance ≤ 0 turns the report off. Nearness is ranked in local planar
-// metres (see Snap); reported distances are on the ellipsoid.
+// metres (see Snap), ties to the lower node index, over a k-d tree of the
+// junctions (kdTree); reported distances are on the ellipsoid.
 func AllocateDemands(t *Topology, demands []Point, fixed []bool, warnDistance hydraulics.Length) ([]hydraulics.Flow, []Problem) {
 	q := make([]hydraulics.Flow, len(t.Nodes))
 	var probs []Problem
@@ -114,20 +115,18 @@ func AllocateDemands(t *Topology, demands []Point, fixed []bool, warnDistance hy
 	// The nearest junction of every demand, in parallel; the sums and the
 	// problems then follow in demand order, as they would one by one.
 	t.ensureIndex()
+	junctions := t.junctionTree(isFixed)
 	node := make([]int, len(demands))
 	forChunks(len(demands), func(lo, hi int) {
+		hits := make([]kdHit, 0, 1)
 		for i := lo; i < hi; i++ {
 			node[i] = -1
 			if !demands[i].Usable {
 				continue
 			}
-			t.nearest(demands[i].At, func(n int) bool {
-				if isFixed(n) {
-					return true
-				}
-				node[i] = n
-				return false
-			})
+			if hits = junctions.nearest(t.proj.xy(demands[i].At), 1, hits); len(hits) > 0 {
+				node[i] = hits[0].id
+			}
 		}
 	})
 	for i, p := range demands {
@@ -167,7 +166,9 @@ const exactHit = 1e-3 // metres
 //
 // with dᵢ on the ellipsoid in metres. A point within 1 mm of the node gives
 // its value directly (the mean of such points if there are several).
-// k ≤ 0 means DefaultIDWNeighbours, power ≤ 0 means DefaultIDWPower. It
+// The k nearest are ranked by planar distance in the topology's local
+// projection (see Snap), ties to the lower point index, over a k-d tree
+// (kdTree), and summed nearest first. k ≤ 0 means DefaultIDWNeighbours, power ≤ 0 means DefaultIDWPower. It
 // returns an error if no point is usable.
 func InterpolateElevations(t *Topology, points []Point, k int, power float64) ([]hydraulics.Length, error) {
 	if k <= 0 {
@@ -177,48 +178,61 @@ func InterpolateElevations(t *Topology, points []Point, k int, power float64) ([
 		power = DefaultIDWPower
 	}
 	t.ensureIndex()
-	tr := &rtree.RTreeG[int]{}
-	n := 0
+	pts := make([]kdPoint, 0, len(points))
 	for i, p := range points {
 		if p.Usable {
-			xy := t.proj.xy(p.At)
-			tr.Insert(xy, xy, i)
-			n++
+			pts = append(pts, kdPoint{xy: t.proj.xy(p.At), id: i})
 		}
 	}
-	if n == 0 {
+	if len(pts) == 0 {
 		return nil, errors.New("gis: no usable elevation point to interpolate node elevations from")
 	}
+	tr := newKDTree(pts)
 	z := make([]hydraulics.Length, len(t.Nodes))
 	forChunks(len(t.Nodes), func(lo, hi int) {
+		hits := make([]kdHit, 0, k)
 		for j := lo; j < hi; j++ {
-			z[j] = idwAt(tr, t.Nodes[j].At, t.proj.xy(t.Nodes[j].At), points, k, power)
+			at := t.Nodes[j].At
+			hits = tr.nearest(t.proj.xy(at), k, hits)
+			z[j] = idwAt(at, hits, points, power)
 		}
 	})
 	return z, nil
 }
 
-// idwAt is the inverse-distance-weighted mean at node position at (xy in
-// the local projection) of its k nearest points in tr (InterpolateElevations).
-func idwAt(tr *rtree.RTreeG[int], at orb.Point, xy [2]float64, points []Point, k int, power float64) hydraulics.Length {
+// idwAt is the inverse-distance-weighted mean at node position at of the
+// points hits names, taken in the order given (InterpolateElevations).
+func idwAt(at orb.Point, hits []kdHit, points []Point, power float64) hydraulics.Length {
 	var sw, swz, hitSum float64
-	hits, seen := 0, 0
-	tr.Nearby(rtree.BoxDist[float64, int](xy, xy, nil), func(_, _ [2]float64, i int, _ float64) bool {
-		p := points[i]
+	exact := 0
+	for _, h := range hits {
+		p := points[h.id]
 		d := segmentMetres(at, p.At)
 		if d <= exactHit {
 			hitSum += p.Value
-			hits++
+			exact++
 		} else {
 			w := math.Pow(d, -power)
 			sw += w
 			swz += w * p.Value
 		}
-		seen++
-		return seen < k
-	})
-	if hits > 0 {
-		return hydraulics.Length(hitSum / float64(hits))
+	}
+	if exact > 0 {
+		return hydraulics.Length(hitSum / float64(exact))
 	}
 	return hydraulics.Length(swz / sw)
+}
+
+// junctionTree returns a kdTree over the nodes in the topology's index that
+// are not fixed, at the positions indexed, with node indices as ids: the
+// nodes, and the coordinates, that nearest searches.
+func (t *Topology) junctionTree(isFixed func(int) bool) *kdTree {
+	pts := make([]kdPoint, 0, t.index.Len())
+	t.index.Scan(func(xy, _ [2]float64, k int) bool {
+		if !isFixed(k) {
+			pts = append(pts, kdPoint{xy: xy, id: k})
+		}
+		return true
+	})
+	return newKDTree(pts)
 }
