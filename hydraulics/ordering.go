@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/bits"
 	"slices"
+	"sync/atomic"
 )
 
 // This file computes the fill-reducing ordering used by the sparse LDLᵀ factorisation (spd).
@@ -18,12 +19,17 @@ import (
 //     parts A and B with no edge between them; A and B are ordered recursively and S is numbered
 //     last, so no fill can join A and B. For planar graphs, separators of size O(√n) exist and
 //     bound the fill at O(n log n) and the work at O(n^1.5) (Lipton, Rose & Tarjan 1979).
-//     - Geometric dissection, when planar coordinates are given and are not all equal: sort the
-//       piece along the wider coordinate axis and split it near the median, at the position
-//       within ±15 % of the piece that cuts the fewest edges (one incremental sweep); the
-//       separator is the set of vertices on one side that have a neighbour on the other side
-//       (the smaller of the two such sets). On the network-like test graphs the cut-minimising
-//       position halves the factorisation work of a plain median split.
+//     - Multilevel bisection (bisect.go) for pieces of at least multilevelPiece vertices: it
+//       finds the network's narrow places (river crossings, the few mains between districts)
+//       and cuts street grids along their own grain at any angle. On the 1,000,000-segment demo
+//       town it cut the factor's nonzeros from 16.4 to 10.0 million and one factorisation from
+//       0.37 s to 0.13 s against the axis-aligned cuts below. The two sides of a large split
+//       are ordered on separate goroutines (the result does not depend on the scheduling).
+//     - Geometric dissection of smaller pieces, when planar coordinates are given and are not
+//       all equal: sort the piece along the wider coordinate axis and split it near the median,
+//       at the position within ±15 % of the piece that cuts the fewest edges (one incremental
+//       sweep); the separator is the set of vertices on one side that have a neighbour on the
+//       other side (the smaller of the two such sets).
 //     - Graph dissection, when there are no usable coordinates (or the points of a piece all
 //       coincide): a breadth-first level structure rooted at a pseudo-peripheral vertex; the
 //       separator is the level at which half the vertices have been reached, less the vertices of
@@ -101,11 +107,12 @@ func newAdjacency(n int, pairs [][2]int32) adjacency {
 func fillReducingOrder(g adjacency, x, y []float64) []int32 {
 	n := len(g.start) - 1
 	o := &orderer{
-		g:     g,
-		label: make([]int32, n),
-		local: make([]int32, n),
-		visit: make([]int32, n),
-		out:   make([]int32, 0, n),
+		g:      g,
+		labels: new(atomic.Int32),
+		label:  make([]int32, n),
+		local:  make([]int32, n),
+		visit:  make([]int32, n),
+		out:    make([]int32, 0, n),
 	}
 	core := o.peelLeaves()
 	if len(core) == 0 {
@@ -113,15 +120,9 @@ func fillReducingOrder(g adjacency, x, y []float64) []int32 {
 	}
 	if usableCoordinates(core, x, y) {
 		o.x, o.y = x, y
-		byX := slices.Clone(core)
-		byY := core
-		slices.SortFunc(byX, func(a, b int32) int { return cmpCoord(x, a, b) })
-		slices.SortFunc(byY, func(a, b int32) int { return cmpCoord(y, a, b) })
 		o.scratch = make([]int32, len(core))
-		o.geometric(byX, byY, 0)
-	} else {
-		o.graph(core, 0)
 	}
+	o.dissect(core, 0)
 	return o.out
 }
 
@@ -160,21 +161,32 @@ func usableCoordinates(vs []int32, x, y []float64) bool {
 // orderer holds the state of one ordering computation. label[v] names the piece vertex v
 // currently belongs to; eliminated vertices carry labelDone.
 type orderer struct {
-	g         adjacency
-	x, y      []float64
-	label     []int32
-	nextLabel int32
-	local     []int32 // vertex -> position inside a small piece
-	visit     []int32 // vertex -> stamp of the last breadth-first search that reached it
-	scratch   []int32 // partition buffer for the geometric lists
-	out       []int32 // elimination order so far
+	g       adjacency
+	x, y    []float64
+	label   []int32
+	labels  *atomic.Int32 // the last label handed out, shared by forked orderers
+	local   []int32       // vertex -> position inside a piece
+	visit   []int32       // vertex -> stamp of the last breadth-first search that reached it
+	scratch []int32       // partition buffer for the geometric lists
+	out     []int32       // elimination order so far
 }
 
 const labelDone int32 = -1
 
-func (o *orderer) newLabel() int32 {
-	o.nextLabel++
-	return o.nextLabel
+func (o *orderer) newLabel() int32 { return o.labels.Add(1) }
+
+// fork returns an orderer for a piece disjoint from every piece o is still ordering, to run on
+// another goroutine. It shares the per-vertex arrays, which is safe: the pieces have no
+// vertex in common and, separators being numbered before their pieces are ordered, no edge
+// between them, so neither goroutine reads a vertex the other writes. It has its own output
+// and partition buffer.
+func (o *orderer) fork(pieceLen int) *orderer {
+	f := *o
+	f.out = make([]int32, 0, pieceLen)
+	if o.scratch != nil {
+		f.scratch = make([]int32, pieceLen)
+	}
+	return &f
 }
 
 // peelLeaves eliminates vertices of degree ≤ 1 until none is left and returns the remaining
