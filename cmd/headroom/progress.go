@@ -94,7 +94,7 @@ func (s *stage) end(detail string) {
 	if done > 0 && s.unit != "" {
 		line = fmt.Sprintf("headroom: %-16s %d %s in %s", s.name, done, s.unit, formatElapsed(elapsed))
 		if sec := elapsed.Seconds(); sec >= 0.05 {
-			line += fmt.Sprintf(" (%.0f/s)", float64(done)/sec)
+			line += " (" + formatRate(float64(done)/sec) + ")"
 		}
 	}
 	if detail != "" {
@@ -103,6 +103,15 @@ func (s *stage) end(detail string) {
 	s.p.mu.Lock()
 	defer s.p.mu.Unlock()
 	fmt.Fprintln(s.p.w, line)
+}
+
+// formatRate is a rate per second: whole numbers, or one decimal below 10
+// ("0.4/s" for three scenarios in 7 s).
+func formatRate(perSecond float64) string {
+	if perSecond < 10 {
+		return fmt.Sprintf("%.1f/s", perSecond)
+	}
+	return fmt.Sprintf("%.0f/s", perSecond)
 }
 
 // formatElapsed is a duration for a person: "0.42 s", "12.3 s", "2 min 05 s".
