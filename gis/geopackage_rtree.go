@@ -3,6 +3,7 @@ package gis
 import (
 	"cmp"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"math"
 	"slices"
@@ -60,10 +61,14 @@ type rtreeNode struct {
 // gpkgLoadRtree fills the empty R*Tree rtree (just created) with the boxes
 // of the rows that have one (has[i]); row i's id is its fid, i+1.
 func gpkgLoadRtree(tx *gpkgTx, rtree string, boxes []orb.Bound, has []bool) error {
-	var nodeBytes int
-	if err := tx.QueryRow("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1").Scan(&nodeBytes); err != nil {
+	size, null, err := tx.queryInt64("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1")
+	if err == nil && null {
+		err = errors.New("the root node has no data")
+	}
+	if err != nil {
 		return fmt.Errorf("reading the spatial index root: %w", err)
 	}
+	nodeBytes := int(size)
 	fanout := min(rtreeMaxCells, (nodeBytes-4)/rtreeCellBytes)
 	if fanout < 2 {
 		return fmt.Errorf("spatial index nodes of %d bytes hold fewer than 2 cells", nodeBytes)

@@ -2,8 +2,6 @@ package gis
 
 import (
 	"cmp"
-	"context"
-	"database/sql"
 	"database/sql/driver"
 	"encoding/binary"
 	"errors"
@@ -302,28 +300,22 @@ func gpkgSyncFile(name string) error {
 	return f.Close()
 }
 
-// gpkgBuild writes the whole GeoPackage into the empty file tmp.
+// gpkgBuild writes the whole GeoPackage into the empty file tmp, in one
+// transaction on a direct connection (sqliteConn).
 func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkgPlan) (err error) {
 	uri, err := gpkgURI(tmp, "")
 	if err != nil {
 		return err
 	}
-	db, err := sql.Open("sqlite", uri)
+	c, err := sqliteOpen(uri)
 	if err != nil {
 		return err
 	}
 	defer func() {
-		if cerr := db.Close(); err == nil {
+		if cerr := c.close(); err == nil {
 			err = cerr
 		}
 	}()
-	db.SetMaxOpenConns(1) // PRAGMAs, the transaction and the statements share one connection
-	ctx := context.Background()
-	conn, err := db.Conn(ctx)
-	if err != nil {
-		return err
-	}
-	defer conn.Close() // before db.Close, deferred above
 	for _, p := range []string{
 		"PRAGMA application_id = " + strconv.Itoa(gpkgApplicationID),
 		"PRAGMA user_version = " + strconv.Itoa(gpkgUserVersion),
@@ -331,18 +323,17 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 		"PRAGMA synchronous = OFF",     // it is synced once, when complete
 		"PRAGMA cache_size = -65536",   // 64 MiB of page cache: the R-tree load touches its nodes at random
 	} {
-		if _, err := conn.ExecContext(ctx, p); err != nil {
+		if err := c.exec(p); err != nil {
 			return fmt.Errorf("%s: %w", p, err)
 		}
 	}
-	sqlTx, err := conn.BeginTx(ctx, nil)
-	if err != nil {
+	if err := c.exec("BEGIN"); err != nil {
 		return err
 	}
-	tx := &gpkgTx{Tx: sqlTx, conn: conn}
+	tx := &gpkgTx{c: c}
 	defer func() {
 		if err != nil {
-			tx.Rollback()
+			c.exec("ROLLBACK")
 		}
 	}()
 	if err := gpkgWriteCore(tx, srsRows); err != nil {
@@ -353,7 +344,7 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 			return err
 		}
 	}
-	return tx.Commit()
+	return c.exec("COMMIT")
 }
 
 func gpkgWriteCore(tx *gpkgTx, srsRows []gpkgSRSRow) error {
@@ -439,12 +430,12 @@ func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 // had (sqlite.org/autoinc.html), so the keys rise row by row from at least
 // 1, and n rising keys from 1 up whose largest is n are exactly 1 … n.
 func gpkgCheckFids(tx *gpkgTx, table string, n int) error {
-	var last sql.NullInt64
-	if err := tx.QueryRow("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table)).Scan(&last); err != nil {
+	last, _, err := tx.queryInt64("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table))
+	if err != nil {
 		return fmt.Errorf("reading the last fid: %w", err)
 	}
-	if last.Int64 != int64(n) {
-		return fmt.Errorf("SQLite numbered %d features up to fid %d, not 1 to %d", n, last.Int64, n)
+	if last != int64(n) {
+		return fmt.Errorf("SQLite numbered %d features up to fid %d, not 1 to %d", n, last, n)
 	}
 	return nil
 }
@@ -507,66 +498,35 @@ const (
 	gpkgMaxParameters = 32_766
 )
 
-// gpkgTx is the transaction a GeoPackage is built in and the connection
-// it runs on. DDL and the few single rows go through database/sql; the
-// bulk rows (gpkgInserter) go to the driver's connection itself.
+// gpkgTx is the transaction a GeoPackage is built in, on its connection.
 type gpkgTx struct {
-	*sql.Tx
-	conn *sql.Conn
+	c *sqliteConn
 }
 
-// prepare prepares query on the driver's connection. The statement is
-// used, and closed, only through execRaw and closeRaw.
-func (tx *gpkgTx) prepare(query string) (st driver.StmtExecContext, err error) {
-	err = tx.conn.Raw(func(dc any) error {
-		pc, ok := dc.(driver.ConnPrepareContext)
-		if !ok {
-			return fmt.Errorf("the SQLite driver's connection %T cannot prepare with a context", dc)
-		}
-		ds, err := pc.PrepareContext(context.Background(), query)
-		if err != nil {
-			return err
-		}
-		if st, ok = ds.(driver.StmtExecContext); !ok {
-			ds.Close()
-			return fmt.Errorf("the SQLite driver's statement %T cannot execute with a context", ds)
-		}
-		return nil
-	})
-	return st, err
+// Exec runs one statement with args (sqliteStmt.exec); the first result
+// is always 0, so that call sites read like database/sql's.
+func (tx *gpkgTx) Exec(query string, args ...any) (int, error) {
+	return 0, tx.c.exec(query, args...)
 }
 
-// execRaw runs st with args, values the SQLite driver binds as they are
-// (int64, float64, string, []byte, nil).
-func (tx *gpkgTx) execRaw(st driver.StmtExecContext, args []driver.NamedValue) error {
-	return tx.conn.Raw(func(any) error {
-		_, err := st.ExecContext(context.Background(), args)
-		return err
-	})
-}
-
-// closeRaw closes a statement from prepare.
-func (tx *gpkgTx) closeRaw(st driver.StmtExecContext) error {
-	return tx.conn.Raw(func(any) error { return st.(driver.Stmt).Close() })
+// queryInt64 runs a query of one integer (or NULL) result.
+func (tx *gpkgTx) queryInt64(query string) (v int64, null bool, err error) {
+	return tx.c.queryInt64(query)
 }
 
 // gpkgInserter writes the rows of one table several to a statement, in
 // row order: set each column of a row, then rowDone; flush at the end for
 // the rows left over. Full statements re-run one statement prepared once,
-// on the driver's connection with the arguments as the driver takes them
-// (driver.NamedValue, reused from one statement to the next): through
-// database/sql every execution checked and copied every argument again
-// (driverArgsConnLocked: 6.5 s of the 24 s CPU that writing pipes.gpkg and
-// nodes.gpkg took on the 1,000,000-main demo town).
+// with the argument slice reused from one statement to the next.
 type gpkgInserter struct {
 	tx      *gpkgTx
-	head    string              // "INSERT INTO t (columns) VALUES "
-	columns int                 // values per row
-	per     int                 // rows of a full statement
-	args    []driver.NamedValue // per rows of values, Ordinal 1, 2, ... set once
-	pending int                 // rows in args
-	written int                 // rows written before them
-	full    driver.StmtExecContext
+	head    string // "INSERT INTO t (columns) VALUES "
+	columns int    // values per row
+	per     int    // rows of a full statement
+	args    []any  // per rows of values
+	pending int    // rows in args
+	written int    // rows written before them
+	full    *sqliteStmt
 	noun    string // what the rows are, for errors; "features" if empty
 }
 
@@ -574,17 +534,13 @@ type gpkgInserter struct {
 // rowsPerStatement rows (and gpkgMaxParameters values) a statement.
 func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gpkgInserter {
 	per := max(1, min(rowsPerStatement, gpkgMaxParameters/columns))
-	args := make([]driver.NamedValue, per*columns)
-	for k := range args {
-		args[k].Ordinal = k + 1
-	}
-	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: args}
+	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: make([]any, per*columns)}
 }
 
 // set stores the value of column j of the pending row: nil (NULL), or an
 // int64, float64, string or []byte. Every column of a row must be set.
-func (in *gpkgInserter) set(j int, v driver.Value) {
-	in.args[in.pending*in.columns+j].Value = v
+func (in *gpkgInserter) set(j int, v any) {
+	in.args[in.pending*in.columns+j] = v
 }
 
 // statement is the INSERT of rows rows.
@@ -601,13 +557,13 @@ func (in *gpkgInserter) rowDone() error {
 		return nil
 	}
 	if in.full == nil {
-		st, err := in.tx.prepare(in.statement(in.per))
+		st, err := in.tx.c.prepare(in.statement(in.per))
 		if err != nil {
 			return in.done(err)
 		}
 		in.full = st
 	}
-	return in.done(in.tx.execRaw(in.full, in.args))
+	return in.done(in.full.exec(in.args))
 }
 
 // flush writes the rows that did not fill a statement.
@@ -615,12 +571,12 @@ func (in *gpkgInserter) flush() error {
 	if in.pending == 0 {
 		return nil
 	}
-	st, err := in.tx.prepare(in.statement(in.pending))
+	st, err := in.tx.c.prepare(in.statement(in.pending))
 	if err != nil {
 		return in.done(err)
 	}
-	err = in.tx.execRaw(st, in.args[:in.pending*in.columns])
-	if cerr := in.tx.closeRaw(st); err == nil {
+	err = st.exec(in.args[:in.pending*in.columns])
+	if cerr := st.close(); err == nil {
 		err = cerr
 	}
 	return in.done(err)
@@ -640,7 +596,7 @@ func (in *gpkgInserter) done(err error) error {
 
 func (in *gpkgInserter) close() {
 	if in.full != nil {
-		in.tx.closeRaw(in.full)
+		in.full.close()
 		in.full = nil
 	}
 }
