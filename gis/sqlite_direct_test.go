@@ -9,7 +9,7 @@ import (
 
 // Values bound on the direct connection read back through the database/sql
 // driver as SQLite stores them (sqlite.org/datatype3.html): NULL for nil and
-// a nil blob, '' (not NULL) for an empty text, integers for bools, and text
+// a nil blob, an empty text (not NULL) for an empty string, integers for bools, and text
 // and blobs byte for byte, across statements whose buffers must grow.
 func TestSQLiteConnBindsEveryKind(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "kinds.sqlite")
