@@ -212,7 +212,7 @@ func commitOutputs(dir string, outs []output) ([]string, error) {
 
 // writeStaged writes each of outs into stage (dir is only named in
 // errors): all but the last at the same time, at most GOMAXPROCS at once,
-// started in the order of outs, then the last alone, once the others are
+// started in startOrder, then the last alone, once the others are
 // complete. Once a write fails no further write is started, and the
 // writes already started are waited for. The error names the first output
 // in the order of outs whose write failed, not the first to fail in time.
@@ -226,7 +226,8 @@ func writeStaged(stage, dir string, outs []output) error {
 		failed atomic.Bool
 	)
 	slots := make(chan struct{}, runtime.GOMAXPROCS(0))
-	for k, o := range outs[:len(outs)-1] {
+	for _, k := range startOrder(outs[:len(outs)-1]) {
+		o := outs[k]
 		slots <- struct{}{}
 		if failed.Load() {
 			<-slots
@@ -251,6 +252,35 @@ func writeStaged(stage, dir string, outs []output) error {
 		}
 	}
 	return nil
+}
+
+// longestFirst names the outputs that take longest to write, longest
+// first, as measured on the 1,000,000-segment demo town on two cores
+// (pipes.gpkg 8.0 s, pipes.geojson 5.2, ranked.xlsx 4.4, ranked.csv 2.7,
+// report.html 2.5, nodes.gpkg 2.2, nodes.geojson 1.1; the shapefiles, not
+// measured, beside their GeoJSON). Starting the longest jobs first
+// (Graham's longest-processing-time rule, 1969) keeps a long one from
+// starting last while the other slots sit idle: in the order outs are
+// listed in, the writing stage took 14.3 s.
+var longestFirst = []string{"pipes.gpkg", "pipes.geojson", "pipes.shp", "ranked.xlsx", "ranked.csv",
+	"report.html", "nodes.gpkg", "nodes.geojson", "nodes.shp"}
+
+// startOrder returns the indices of outs in the order writeStaged starts
+// them: those named in longestFirst in its order, then the rest in the
+// order of outs.
+func startOrder(outs []output) []int {
+	rank := func(name string) int {
+		if i := slices.Index(longestFirst, name); i >= 0 {
+			return i
+		}
+		return len(longestFirst)
+	}
+	order := make([]int, len(outs))
+	for k := range order {
+		order[k] = k
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return rank(outs[a].name) - rank(outs[b].name) })
+	return order
 }
 
 // renameAll moves every staged file of outs into dir, last output first,
