@@ -111,27 +111,34 @@ func NearestFacilities(pipes []Pipe, facilities []Facility, within hydraulics.Le
 	}
 	limit := math.Max(within.Metres(), 0)
 	out := make([]FacilityNear, len(pipes))
-	for i, p := range pipes {
-		out[i] = FacilityNear{Facility: -1}
-		if !p.Usable || len(p.Line) == 0 {
-			continue
+	forChunks(len(pipes), func(lo, hi int) { // the tree is only read from here on
+		for i := lo; i < hi; i++ {
+			out[i] = nearestFacility(&tree, facilities, pipes[i], limit)
 		}
-		bound := p.Line.Bound()
-		k, d := nearestGrowing(limit, tree.Len() > 0, func(r float64) (int, float64) {
-			lo, hi := reachBox(bound, r)
-			best, bestD := -1, math.Inf(1)
-			tree.Search(lo, hi, func(_, _ [2]float64, k int) bool {
-				d := pointLineMetres(facilities[k].At, p.Line)
-				if d <= r && (d < bestD || (d == bestD && k < best)) {
-					best, bestD = k, d
-				}
-				return true
-			})
-			return best, bestD
-		})
-		if k >= 0 {
-			out[i] = FacilityNear{Facility: k, Distance: hydraulics.Length(d)}
-		}
-	}
+	})
 	return out
+}
+
+// nearestFacility is NearestFacilities for one pipe.
+func nearestFacility(tree *rtree.RTreeG[int], facilities []Facility, p Pipe, limit float64) FacilityNear {
+	if !p.Usable || len(p.Line) == 0 {
+		return FacilityNear{Facility: -1}
+	}
+	bound := p.Line.Bound()
+	k, d := nearestGrowing(limit, tree.Len() > 0, func(r float64) (int, float64) {
+		lo, hi := reachBox(bound, r)
+		best, bestD := -1, math.Inf(1)
+		tree.Search(lo, hi, func(_, _ [2]float64, k int) bool {
+			d := pointLineMetres(facilities[k].At, p.Line)
+			if d <= r && (d < bestD || (d == bestD && k < best)) {
+				best, bestD = k, d
+			}
+			return true
+		})
+		return best, bestD
+	})
+	if k < 0 {
+		return FacilityNear{Facility: -1}
+	}
+	return FacilityNear{Facility: k, Distance: hydraulics.Length(d)}
 }

@@ -164,10 +164,11 @@ func TestFacilityNearestHand(t *testing.T) {
 
 // NearestFacilities against brute force over all pairs (same distance
 // function, so this checks the R-tree search, the reach boxes and ties),
-// for several reaches and none.
+// for several reaches and none. 3,000 pipes: more than one chunk, so the
+// pipes are searched on several goroutines (run under -race in .ci/run).
 func TestFacilityNearestBruteForce(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 45))
-	pipes := breakRandomPipes(rng, 500)
+	pipes := breakRandomPipes(rng, 3000)
 	var facilities []Facility
 	for i := range 120 {
 		f := Facility{Index: i + 1, At: orb.Point{-93.01 + 0.07*rng.Float64(), 44.99 + 0.055*rng.Float64()}, Usable: i%9 != 4}
