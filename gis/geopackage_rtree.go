@@ -243,8 +243,8 @@ func rtreeWrite(tx *gpkgTx, rtree string, nodeBytes int, levels [][]rtreeNode) e
 				}
 				start := len(blobs)
 				blobs = append(blobs, make([]byte, nodeBytes)...)
-				insNode.set(0, n.no)
-				insNode.set(1, rtreeEncode(blobs[start:len(blobs):len(blobs)], 0, n.cells))
+				insNode.setInt(0, n.no)
+				insNode.setBlob(1, rtreeEncode(blobs[start:len(blobs):len(blobs)], 0, n.cells))
 				if err := insNode.rowDone(); err != nil {
 					return fmt.Errorf("spatial index node %d: %w", n.no, err)
 				}
@@ -253,8 +253,8 @@ func rtreeWrite(tx *gpkgTx, rtree string, nodeBytes int, levels [][]rtreeNode) e
 				continue
 			}
 			for _, c := range n.cells {
-				insParent.set(0, c.id)
-				insParent.set(1, n.no)
+				insParent.setInt(0, c.id)
+				insParent.setInt(1, n.no)
 				if err := insParent.rowDone(); err != nil {
 					return fmt.Errorf("spatial index node %d: %w", c.id, err)
 				}
@@ -289,8 +289,8 @@ func rtreeWriteRowids(tx *gpkgTx, table string, leaves []rtreeNode) error {
 	ins.noun = "spatial index rows"
 	defer ins.close()
 	for _, p := range pairs {
-		ins.set(0, p[0])
-		ins.set(1, p[1])
+		ins.setInt(0, p[0])
+		ins.setInt(1, p[1])
 		if err := ins.rowDone(); err != nil {
 			return err
 		}

@@ -2,7 +2,6 @@ package gis
 
 import (
 	"cmp"
-	"database/sql/driver"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -221,14 +220,14 @@ func gpkgLayerType(file string, l *Layer) (string, bool, error) {
 	mixedKind, mixedMulti := false, false
 	rd := l.Reader()
 	for i := range l.Len() {
-		r := rd.Row(i)
-		if r.Geometry == nil {
+		g := rd.Geometry(i) // not Row: that would box every value of a packed layer
+		if g == nil {
 			continue
 		}
-		name, multi, ok := gpkgKind(r.Geometry)
+		name, multi, ok := gpkgKind(g)
 		if !ok {
 			return "", false, &FieldError{File: file, Feature: i + 1, Field: "geometry",
-				Err: fmt.Errorf("layer %q: unsupported geometry type %T; GeoPackage output takes points, lines, polygons and their multi forms", l.Name, r.Geometry)}
+				Err: fmt.Errorf("layer %q: unsupported geometry type %T; GeoPackage output takes points, lines, polygons and their multi forms", l.Name, g)}
 		}
 		switch {
 		case first == "":
@@ -397,7 +396,7 @@ func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
 	defer w.ins.close()
 	rd := l.Reader()
 	for i := range l.Len() {
-		if err := w.add(i, rd.Row(i)); err != nil {
+		if err := w.add(i, rd); err != nil {
 			return err
 		}
 	}
@@ -454,38 +453,76 @@ type gpkgFeatures struct {
 	blobs      []byte // the pending rows' geometries, end to end; the driver copies them when it binds
 }
 
-// add writes row i (0-based; SQLite gives it fid i+1, gpkgCheckFids).
-func (w *gpkgFeatures) add(i int, r Row) error {
+// add writes row i (0-based; SQLite gives it fid i+1, gpkgCheckFids),
+// read through rd: packed numbers and text unboxed (cell), other values
+// through gpkgBind.
+func (w *gpkgFeatures) add(i int, rd *RowReader) error {
 	l, in := w.plan.layer, w.ins
-	if len(r.Values) != len(l.Columns) {
-		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, len(r.Values), len(l.Columns))}
+	if n := rd.width(i); n != len(l.Columns) {
+		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, n, len(l.Columns))}
 	}
 	if in.pending == 0 {
 		w.blobs = w.blobs[:0]
 	}
-	var geom driver.Value
-	if g := gpkgPromote(r.Geometry, w.plan.promote); gpkgWritable(g) {
+	in.setNull(0)
+	if g := gpkgPromote(rd.Geometry(i), w.plan.promote); gpkgWritable(g) {
 		w.boxes[i], w.has[i] = g.Bound(), true
 		start := len(w.blobs)
 		w.blobs = gpkgEncodeGeometry(w.blobs, w.srsID, g, w.boxes[i])
-		geom = w.blobs[start:len(w.blobs):len(w.blobs)]
+		in.setBlob(0, w.blobs[start:len(w.blobs):len(w.blobs)])
 		if w.haveExtent {
 			w.extent = w.extent.Union(w.boxes[i])
 		} else {
 			w.extent, w.haveExtent = w.boxes[i], true
 		}
 	}
-	in.set(0, geom)
 	for j, c := range l.Columns {
-		v, err := gpkgBind(c, r.Values[j])
-		if err != nil {
+		if err := w.cell(rd, i, j, c); err != nil {
 			return &FieldError{File: w.file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 		}
-		in.set(1+j, v)
 	}
 	if err := in.rowDone(); err != nil {
 		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
+	return nil
+}
+
+// cell stores row i's value of column j as gpkgBind would: the common
+// cases of a packed layer (a null, a float in a REAL column, an int in an
+// INTEGER column, text in a TEXT column) without boxing them.
+func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
+	in := w.ins
+	bits, kind := rd.scalar(i, j)
+	switch {
+	case kind == packedNone:
+		in.setNull(1 + j)
+		return nil
+	case kind == packedFloat && c.Kind == Real:
+		f := math.Float64frombits(bits)
+		switch {
+		case math.IsNaN(f) || math.IsInf(f, 0):
+			in.setNull(1 + j)
+		case c.Decimals >= 0:
+			in.setFloat(1+j, gpkgRound(c, f))
+		default:
+			in.setFloat(1+j, f)
+		}
+		return nil
+	case kind == packedInt && c.Kind == Integer:
+		in.setInt(1+j, int64(bits))
+		return nil
+	}
+	if c.Kind == String {
+		if s, ok := rd.text(i, j); ok {
+			in.setText(1+j, s)
+			return nil
+		}
+	}
+	v, err := gpkgBind(c, rd.Value(i, j))
+	if err != nil {
+		return err
+	}
+	in.args[in.pending*in.columns+1+j] = v
 	return nil
 }
 
@@ -520,12 +557,12 @@ func (tx *gpkgTx) queryInt64(query string) (v int64, null bool, err error) {
 // with the argument slice reused from one statement to the next.
 type gpkgInserter struct {
 	tx      *gpkgTx
-	head    string // "INSERT INTO t (columns) VALUES "
-	columns int    // values per row
-	per     int    // rows of a full statement
-	args    []any  // per rows of values
-	pending int    // rows in args
-	written int    // rows written before them
+	head    string        // "INSERT INTO t (columns) VALUES "
+	columns int           // values per row
+	per     int           // rows of a full statement
+	args    []sqliteValue // per rows of values
+	pending int           // rows in args
+	written int           // rows written before them
 	full    *sqliteStmt
 	noun    string // what the rows are, for errors; "features" if empty
 }
@@ -534,13 +571,40 @@ type gpkgInserter struct {
 // rowsPerStatement rows (and gpkgMaxParameters values) a statement.
 func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gpkgInserter {
 	per := max(1, min(rowsPerStatement, gpkgMaxParameters/columns))
-	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: make([]any, per*columns)}
+	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: make([]sqliteValue, per*columns)}
 }
 
 // set stores the value of column j of the pending row: nil (NULL), or an
 // int64, float64, string or []byte. Every column of a row must be set.
-func (in *gpkgInserter) set(j int, v any) {
-	in.args[in.pending*in.columns+j] = v
+func (in *gpkgInserter) set(j int, v any) error {
+	x, err := sqliteValueOf(v)
+	in.args[in.pending*in.columns+j] = x
+	return err
+}
+
+// setNull, setInt, setFloat, setText and setBlob store the value of
+// column j of the pending row, unboxed.
+func (in *gpkgInserter) setNull(j int) { in.args[in.pending*in.columns+j] = sqliteValue{} }
+
+func (in *gpkgInserter) setInt(j int, v int64) {
+	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteInt, i: v}
+}
+
+func (in *gpkgInserter) setFloat(j int, v float64) {
+	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteFloat, f: v}
+}
+
+func (in *gpkgInserter) setText(j int, v string) {
+	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteText, s: v}
+}
+
+// setBlob stores b, or NULL for a nil b.
+func (in *gpkgInserter) setBlob(j int, b []byte) {
+	if b == nil {
+		in.setNull(j)
+		return
+	}
+	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteBlob, b: b}
 }
 
 // statement is the INSERT of rows rows.
@@ -563,7 +627,7 @@ func (in *gpkgInserter) rowDone() error {
 		}
 		in.full = st
 	}
-	return in.done(in.full.exec(in.args))
+	return in.done(in.full.execValues(in.args))
 }
 
 // flush writes the rows that did not fill a statement.
@@ -575,7 +639,7 @@ func (in *gpkgInserter) flush() error {
 	if err != nil {
 		return in.done(err)
 	}
-	err = st.exec(in.args[:in.pending*in.columns])
+	err = st.execValues(in.args[:in.pending*in.columns])
 	if cerr := st.close(); err == nil {
 		err = cerr
 	}
@@ -740,41 +804,41 @@ func gpkgAppendWKB(buf []byte, g orb.Geometry) []byte {
 }
 
 // gpkgBind converts a Row value to what is stored in a column of c.Kind
-// (see WriteGeoPackage); nil means SQL NULL. A value already of the stored
-// type and value is returned as it came, so that it is not boxed again.
-func gpkgBind(c Column, v any) (any, error) {
+// (see WriteGeoPackage), unboxed; nil is SQL NULL.
+func gpkgBind(c Column, v any) (sqliteValue, error) {
 	if v == nil {
-		return nil, nil
+		return sqliteValue{}, nil
 	}
 	switch c.Kind {
 	case String:
 		if s, ok := v.(string); ok {
-			return s, nil
+			return sqliteValue{kind: sqliteText, s: s}, nil
 		}
 		text, isNull, err := formatValue(nil, c, v)
 		if err != nil || isNull {
-			return nil, err
+			return sqliteValue{}, err
 		}
-		return string(text), nil
+		return sqliteValue{kind: sqliteText, s: string(text)}, nil
 	case Integer:
-		if _, ok := v.(int64); ok {
-			return v, nil
+		if x, ok := v.(int64); ok {
+			return sqliteValue{kind: sqliteInt, i: x}, nil
 		}
-		return gpkgInteger(v)
+		x, err := gpkgInteger(v)
+		if err != nil || x == nil {
+			return sqliteValue{}, err
+		}
+		return sqliteValue{kind: sqliteInt, i: x.(int64)}, nil
 	case Real:
 		f, ok, err := gpkgReal(v)
 		if err != nil || !ok {
-			return nil, err
+			return sqliteValue{}, err
 		}
 		if c.Decimals >= 0 {
 			f = gpkgRound(c, f)
 		}
-		if x, ok := v.(float64); ok && math.Float64bits(x) == math.Float64bits(f) {
-			return v, nil
-		}
-		return f, nil
+		return sqliteValue{kind: sqliteFloat, f: f}, nil
 	}
-	return nil, fmt.Errorf("unknown column kind %v", c.Kind)
+	return sqliteValue{}, fmt.Errorf("unknown column kind %v", c.Kind)
 }
 
 // gpkgPow10 holds 10^k for k = 0…22, the powers of ten a float64 holds

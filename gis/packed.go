@@ -458,6 +458,33 @@ func (rd *RowReader) scalar(i, k int) (uint64, packedKind) {
 	return 0, packedMixed
 }
 
+// text is row i's value in column k when the layer holds it as packed
+// text (not null), without boxing; ok is false otherwise, and Value has it.
+func (rd *RowReader) text(i, k int) (string, bool) {
+	l := rd.l
+	switch {
+	case l.view != nil:
+		if l.view.rows != nil {
+			i = l.view.rows[i]
+		}
+		if l.view.columns != nil {
+			k = l.view.columns[k]
+		}
+		return rd.source.text(i, k)
+	case l.packed != nil:
+		c := &l.packed.chunks[i/packedChunkRows].columns[k]
+		j := i % packedChunkRows
+		if c.kind != packedString || (c.null != nil && c.null[j/64]&(1<<(j%64)) != 0) {
+			return "", false
+		}
+		if c.text == nil {
+			return c.dict[c.codes[j]], true
+		}
+		return c.text[j], true
+	}
+	return "", false
+}
+
 // width is the number of values row i holds: a plain layer's row may be
 // short or long, which the writers report; packed rows and views have one
 // a column.

@@ -148,13 +148,73 @@ func (c *sqliteConn) prepare(query string) (*sqliteStmt, error) {
 	return st, nil
 }
 
-// exec binds args to the statement's parameters in order and runs it to completion. A value
-// is nil (NULL), int64, int, int32, float64, bool (0 or 1), string or []byte (nil is NULL).
-func (st *sqliteStmt) exec(args []any) error {
-	if len(args) != st.params {
-		return fmt.Errorf("sqlite: %d values for %d parameters", len(args), st.params)
+// sqliteValue is one value to bind, unboxed: kind says which field holds it.
+type sqliteValue struct {
+	kind byte // sqliteNull, sqliteInt, sqliteFloat, sqliteText or sqliteBlob
+	i    int64
+	f    float64
+	s    string
+	b    []byte
+}
+
+const (
+	sqliteNull byte = iota
+	sqliteInt
+	sqliteFloat
+	sqliteText
+	sqliteBlob
+)
+
+// sqliteValueOf is v as a sqliteValue: nil (NULL), int64, int, int32,
+// float64, bool (0 or 1), string or []byte (nil is NULL).
+func sqliteValueOf(v any) (sqliteValue, error) {
+	switch x := v.(type) {
+	case nil:
+		return sqliteValue{}, nil
+	case int64:
+		return sqliteValue{kind: sqliteInt, i: x}, nil
+	case int:
+		return sqliteValue{kind: sqliteInt, i: int64(x)}, nil
+	case int32:
+		return sqliteValue{kind: sqliteInt, i: int64(x)}, nil
+	case float64:
+		return sqliteValue{kind: sqliteFloat, f: x}, nil
+	case bool:
+		if x {
+			return sqliteValue{kind: sqliteInt, i: 1}, nil
+		}
+		return sqliteValue{kind: sqliteInt}, nil
+	case string:
+		return sqliteValue{kind: sqliteText, s: x}, nil
+	case []byte:
+		if x == nil {
+			return sqliteValue{}, nil
+		}
+		return sqliteValue{kind: sqliteBlob, b: x}, nil
 	}
-	if err := st.bind(args); err != nil {
+	return sqliteValue{}, fmt.Errorf("sqlite: cannot store a %T", v)
+}
+
+// exec binds args (see sqliteValueOf) to the statement's parameters in
+// order and runs it to completion.
+func (st *sqliteStmt) exec(args []any) error {
+	vals := make([]sqliteValue, len(args))
+	for k, v := range args {
+		var err error
+		if vals[k], err = sqliteValueOf(v); err != nil {
+			return fmt.Errorf("sqlite: value %d: %w", k+1, err)
+		}
+	}
+	return st.execValues(vals)
+}
+
+// execValues binds vals to the statement's parameters in order and runs it
+// to completion.
+func (st *sqliteStmt) execValues(vals []sqliteValue) error {
+	if len(vals) != st.params {
+		return fmt.Errorf("sqlite: %d values for %d parameters", len(vals), st.params)
+	}
+	if err := st.bind(vals); err != nil {
 		return err
 	}
 	c := st.c
@@ -175,18 +235,13 @@ func (st *sqliteStmt) exec(args []any) error {
 	}
 }
 
-// bind binds args; text and blobs are first copied, end to end, into the statement's buffer,
-// which SQLite reads in place until the next bind.
-func (st *sqliteStmt) bind(args []any) error {
+// bind binds vals; text and blobs are first copied, end to end, into the
+// statement's buffer, which SQLite reads in place until the next bind.
+func (st *sqliteStmt) bind(vals []sqliteValue) error {
 	c := st.c
 	need := 1 // never a null pointer: an empty text bound from address 0 would be NULL
-	for _, v := range args {
-		switch x := v.(type) {
-		case string:
-			need += len(x)
-		case []byte:
-			need += len(x)
-		}
+	for k := range vals {
+		need += len(vals[k].s) + len(vals[k].b)
 	}
 	if need > st.bufLen {
 		if st.buf != 0 {
@@ -201,46 +256,33 @@ func (st *sqliteStmt) bind(args []any) error {
 	}
 	mem := cMemory(st.buf, st.bufLen)
 	at := 0
-	for k, v := range args {
+	for k := range vals {
+		v := &vals[k]
 		i := int32(k + 1)
 		var rc int32
-		switch x := v.(type) {
-		case nil:
+		switch v.kind {
+		case sqliteNull:
 			rc = sqlite3.Xsqlite3_bind_null(c.tls, st.p, i)
-		case int64:
-			rc = sqlite3.Xsqlite3_bind_int64(c.tls, st.p, i, x)
-		case int:
-			rc = sqlite3.Xsqlite3_bind_int64(c.tls, st.p, i, int64(x))
-		case int32:
-			rc = sqlite3.Xsqlite3_bind_int64(c.tls, st.p, i, int64(x))
-		case float64:
-			rc = sqlite3.Xsqlite3_bind_double(c.tls, st.p, i, x)
-		case bool:
-			b := int64(0)
-			if x {
-				b = 1
+		case sqliteInt:
+			rc = sqlite3.Xsqlite3_bind_int64(c.tls, st.p, i, v.i)
+		case sqliteFloat:
+			rc = sqlite3.Xsqlite3_bind_double(c.tls, st.p, i, v.f)
+		case sqliteText:
+			if len(v.s) > math.MaxInt32 {
+				return fmt.Errorf("sqlite: value %d: %d bytes of text", k+1, len(v.s))
 			}
-			rc = sqlite3.Xsqlite3_bind_int64(c.tls, st.p, i, b)
-		case string:
-			if len(x) > math.MaxInt32 {
-				return fmt.Errorf("sqlite: value %d: %d bytes of text", k+1, len(x))
+			copy(mem[at:], v.s)
+			rc = sqlite3.Xsqlite3_bind_text(c.tls, st.p, i, st.buf+uintptr(at), int32(len(v.s)), 0)
+			at += len(v.s)
+		case sqliteBlob:
+			if len(v.b) > math.MaxInt32 {
+				return fmt.Errorf("sqlite: value %d: a blob of %d bytes", k+1, len(v.b))
 			}
-			copy(mem[at:], x)
-			rc = sqlite3.Xsqlite3_bind_text(c.tls, st.p, i, st.buf+uintptr(at), int32(len(x)), 0)
-			at += len(x)
-		case []byte:
-			if x == nil {
-				rc = sqlite3.Xsqlite3_bind_null(c.tls, st.p, i)
-				break
-			}
-			if len(x) > math.MaxInt32 {
-				return fmt.Errorf("sqlite: value %d: a blob of %d bytes", k+1, len(x))
-			}
-			copy(mem[at:], x)
-			rc = sqlite3.Xsqlite3_bind_blob(c.tls, st.p, i, st.buf+uintptr(at), int32(len(x)), 0)
-			at += len(x)
+			copy(mem[at:], v.b)
+			rc = sqlite3.Xsqlite3_bind_blob(c.tls, st.p, i, st.buf+uintptr(at), int32(len(v.b)), 0)
+			at += len(v.b)
 		default:
-			return fmt.Errorf("sqlite: value %d: cannot store a %T", k+1, v)
+			return fmt.Errorf("sqlite: value %d: unknown kind %d", k+1, v.kind)
 		}
 		if rc != sqlite3.SQLITE_OK {
 			return c.error(rc)
