@@ -925,36 +925,7 @@ func gpkgReportCPU(b *testing.B, cpu time.Duration, rows int) {
 // pipes.gpkg a run writes than the five columns above.
 // It writes the layer as a list of rows and packed (as a run's is).
 func BenchmarkWriteGeoPackagePipes100k(b *testing.B) {
-	const n = 100_000
-	rows := benchWritePipeLayer(n)
-	packed := PackLayer(rows.Name, rows.Columns, n, func(i int, v []any) orb.Geometry {
-		copy(v, rows.Rows[i].Values)
-		return rows.Rows[i].Geometry
-	})
-	srs := SpatialRef{ID: 4326}
-	for _, c := range []struct {
-		name string
-		l    *Layer
-	}{{"rows", rows}, {"packed", packed}} {
-		b.Run(c.name, func(b *testing.B) {
-			path := filepath.Join(b.TempDir(), "pipes.gpkg")
-			b.ReportAllocs()
-			cpu0 := processCPU()
-			for b.Loop() {
-				if err := WriteGeoPackage(path, srs, c.l); err != nil {
-					b.Fatal(err)
-				}
-			}
-			st, err := os.Stat(path)
-			if err != nil {
-				b.Fatal(err)
-			}
-			s := b.Elapsed().Seconds()
-			b.ReportMetric(float64(n)*float64(b.N)/s, "rows/s")
-			b.ReportMetric(float64(st.Size())*float64(b.N)/s/1e6, "MB/s")
-			gpkgReportCPU(b, processCPU()-cpu0, n)
-		})
-	}
+	benchWriteLayer(b, "pipes.gpkg", func(path string, l *Layer) error { return WriteGeoPackage(path, SpatialRef{ID: 4326}, l) })
 }
 
 // Reading never leaves files beside the input, also for a database in WAL

@@ -193,7 +193,7 @@ func (c *packedColumn) toMixed(j int) {
 
 // get returns row j's value, boxed.
 func (c *packedColumn) get(j int) any {
-	if c.null != nil && c.null[j/64]&(1<<(j%64)) != 0 {
+	if c.isNull(j) {
 		return nil
 	}
 	switch c.kind {
@@ -316,20 +316,28 @@ func (rd *RowReader) viewRow(i int) Row {
 
 // Value is row i's value in column k, read without the rest of the row.
 func (rd *RowReader) Value(i, k int) any {
-	l := rd.l
-	switch {
-	case l.view != nil:
-		if l.view.rows != nil {
-			i = l.view.rows[i]
-		}
-		if l.view.columns != nil {
-			k = l.view.columns[k]
-		}
-		return rd.source.Value(i, k)
-	case l.packed != nil:
-		return l.packed.chunks[i/packedChunkRows].columns[k].get(i % packedChunkRows)
+	if c, j := rd.packedCell(i, k); c != nil {
+		return c.get(j)
 	}
+	l, i, k := rd.resolve(i, k)
 	return l.Rows[i].Values[k]
+}
+
+// resolve follows rd's views down to the layer that holds row i, column k
+// and returns it with the row and column there.
+func (rd *RowReader) resolve(i, k int) (*Layer, int, int) {
+	for r := rd; ; r = r.source {
+		v := r.l.view
+		if v == nil {
+			return r.l, i, k
+		}
+		if v.rows != nil {
+			i = v.rows[i]
+		}
+		if v.columns != nil {
+			k = v.columns[k]
+		}
+	}
 }
 
 // Geometry is row i's geometry, read without its values.
@@ -430,30 +438,32 @@ func geometryNonFinite(g orb.Geometry) bool {
 	return bad
 }
 
+// packedCell resolves row i, column k of rd's layer through its views to
+// the packed column holding it and the row within that column's chunk;
+// nil when the layer underneath is not packed.
+func (rd *RowReader) packedCell(i, k int) (*packedColumn, int) {
+	l, i, k := rd.resolve(i, k)
+	if l.packed == nil {
+		return nil, 0
+	}
+	return &l.packed.chunks[i/packedChunkRows].columns[k], i % packedChunkRows
+}
+
+// isNull reports whether row j of the chunk column c is null.
+func (c *packedColumn) isNull(j int) bool { return c.null != nil && c.null[j/64]&(1<<(j%64)) != 0 }
+
 // scalar is row i's value in column k without boxing, for the writers'
 // inner loops: a float's bits with packedFloat, an int with packedInt, 0
 // with packedNone for a null; packedMixed when the value is of another
 // type or the layer is not packed, and then Value has it.
 func (rd *RowReader) scalar(i, k int) (uint64, packedKind) {
-	l := rd.l
+	c, j := rd.packedCell(i, k)
 	switch {
-	case l.view != nil:
-		if l.view.rows != nil {
-			i = l.view.rows[i]
-		}
-		if l.view.columns != nil {
-			k = l.view.columns[k]
-		}
-		return rd.source.scalar(i, k)
-	case l.packed != nil:
-		c := &l.packed.chunks[i/packedChunkRows].columns[k]
-		j := i % packedChunkRows
-		switch {
-		case c.null != nil && c.null[j/64]&(1<<(j%64)) != 0:
-			return 0, packedNone
-		case c.kind == packedFloat || c.kind == packedInt:
-			return c.words[j], c.kind
-		}
+	case c == nil:
+	case c.isNull(j):
+		return 0, packedNone
+	case c.kind == packedFloat || c.kind == packedInt:
+		return c.words[j], c.kind
 	}
 	return 0, packedMixed
 }
@@ -461,28 +471,14 @@ func (rd *RowReader) scalar(i, k int) (uint64, packedKind) {
 // text is row i's value in column k when the layer holds it as packed
 // text (not null), without boxing; ok is false otherwise, and Value has it.
 func (rd *RowReader) text(i, k int) (string, bool) {
-	l := rd.l
+	c, j := rd.packedCell(i, k)
 	switch {
-	case l.view != nil:
-		if l.view.rows != nil {
-			i = l.view.rows[i]
-		}
-		if l.view.columns != nil {
-			k = l.view.columns[k]
-		}
-		return rd.source.text(i, k)
-	case l.packed != nil:
-		c := &l.packed.chunks[i/packedChunkRows].columns[k]
-		j := i % packedChunkRows
-		if c.kind != packedString || (c.null != nil && c.null[j/64]&(1<<(j%64)) != 0) {
-			return "", false
-		}
-		if c.text == nil {
-			return c.dict[c.codes[j]], true
-		}
-		return c.text[j], true
+	case c == nil || c.kind != packedString || c.isNull(j):
+		return "", false
+	case c.text == nil:
+		return c.dict[c.codes[j]], true
 	}
-	return "", false
+	return c.text[j], true
 }
 
 // width is the number of values row i holds: a plain layer's row may be

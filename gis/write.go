@@ -107,6 +107,10 @@ func WriteGeoJSON(path string, l *Layer) error {
 					}
 					continue
 				}
+				if s, ok := rd.text(i, j); ok {
+					buf = appendJSONString(buf, s)
+					continue
+				}
 				var err error
 				if buf, err = appendJSONValue(buf, c, rd.Value(i, j)); err != nil {
 					return fmt.Errorf("gis: layer %q row %d column %q: %w", l.Name, i+1, c.Name, err)
@@ -183,6 +187,10 @@ func writeCSV(w io.Writer, l *Layer) error {
 			}
 			if out, _, ok := rd.appendNumber(line, i, j, c); ok { // a null is an empty field
 				line = out
+				continue
+			}
+			if s, ok := rd.text(i, j); ok {
+				line = appendCSVField(line, formulaSafe(s))
 				continue
 			}
 			v := rd.Value(i, j)

@@ -47,20 +47,30 @@ func BenchmarkWriteGeoJSON100k(b *testing.B) { benchWriteLayer(b, "pipes.geojson
 
 func BenchmarkWriteCSV100k(b *testing.B) { benchWriteLayer(b, "ranked.csv", WriteCSV) }
 
-func benchWriteLayer(b *testing.B, file string, write func(string, *Layer) error) {
-	const n = 100_000
+// benchWriteLayers is benchWritePipeLayer(n) as a list of rows and packed
+// column by column (PackLayer, as a run's pipe layer is), named so.
+func benchWriteLayers(n int) []struct {
+	name string
+	l    *Layer
+} {
 	rows := benchWritePipeLayer(n)
 	packed := PackLayer(rows.Name, rows.Columns, n, func(i int, v []any) orb.Geometry {
 		copy(v, rows.Rows[i].Values)
 		return rows.Rows[i].Geometry
 	})
-	for _, c := range []struct {
+	return []struct {
 		name string
 		l    *Layer
-	}{{"rows", rows}, {"packed", packed}} {
+	}{{"rows", rows}, {"packed", packed}}
+}
+
+func benchWriteLayer(b *testing.B, file string, write func(string, *Layer) error) {
+	const n = 100_000
+	for _, c := range benchWriteLayers(n) {
 		b.Run(c.name, func(b *testing.B) {
 			path := filepath.Join(b.TempDir(), file)
 			b.ReportAllocs()
+			cpu0 := processCPU()
 			for b.Loop() {
 				if err := write(path, c.l); err != nil {
 					b.Fatal(err)
@@ -73,6 +83,7 @@ func benchWriteLayer(b *testing.B, file string, write func(string, *Layer) error
 			s := b.Elapsed().Seconds()
 			b.ReportMetric(float64(n)*float64(b.N)/s, "rows/s")
 			b.ReportMetric(float64(st.Size())*float64(b.N)/s/1e6, "MB/s")
+			gpkgReportCPU(b, processCPU()-cpu0, n)
 		})
 	}
 }
