@@ -4,7 +4,9 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"slices"
 	"strings"
+	"sync"
 
 	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/geojson"
@@ -121,21 +123,70 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 	if closed == nil {
 		closed = []string{"closed"}
 	}
-	r := &pipeReader{file: file, s: s, dUnit: dUnit, lUnit: lUnit, year: analysisYear,
-		closed: closed, probs: probs, seen: map[string]int{}}
-	pipes := make([]Pipe, len(fc.Features))
+	r := &pipeReader{file: file, s: s, dUnit: dUnit, lUnit: lUnit, year: analysisYear, closed: closed}
+	pipes, probs := r.pipes(fc.Features, probs)
 	usable := 0
-	for i, f := range fc.Features {
-		pipes[i] = r.pipe(i+1, f)
+	for i := range pipes {
 		if pipes[i].Usable {
 			usable++
 		}
 	}
 	if usable == 0 {
-		return pipes, r.probs, &FieldError{File: file,
+		return pipes, probs, &FieldError{File: file,
 			Err: fmt.Errorf("%w: none of %d pipes can be modelled; see the problems list", ErrNoUsable, len(pipes))}
 	}
-	return pipes, r.probs, nil
+	return pipes, probs, nil
+}
+
+// pipes maps the features on GOMAXPROCS goroutines, each with a reader of
+// its own (r with no seen map), and then finds repeated ids in feature
+// order. The problems come out as one reader would list them after
+// before: feature by feature, a repeated id first among its feature's.
+func (r *pipeReader) pipes(features []*geojson.Feature, before []Problem) ([]Pipe, []Problem) {
+	n := len(features)
+	pipes := make([]Pipe, n)
+	first := make([]int, n)     // feature i's problems start at first[i] in its chunk's
+	idName := make([]string, n) // the member feature i's id came from
+	type chunk struct {
+		lo, hi int
+		probs  []Problem
+	}
+	var chunks []*chunk
+	var mu sync.Mutex
+	forChunks(n, func(lo, hi int) {
+		cr := *r
+		cr.probs = nil
+		for i := lo; i < hi; i++ {
+			first[i] = len(cr.probs)
+			pipes[i] = cr.pipe(i+1, features[i])
+			idName[i] = cr.idName
+		}
+		mu.Lock()
+		chunks = append(chunks, &chunk{lo, hi, cr.probs})
+		mu.Unlock()
+	})
+	slices.SortFunc(chunks, func(a, b *chunk) int { return a.lo - b.lo })
+	probs := before
+	seen := make(map[string]int, n)
+	for _, c := range chunks {
+		for i := c.lo; i < c.hi; i++ {
+			end := len(c.probs)
+			if i+1 < c.hi {
+				end = first[i+1]
+			}
+			if p := &pipes[i]; p.ID != "" {
+				if at, dup := seen[p.ID]; dup {
+					probs = append(probs, Problem{File: r.file, Feature: p.Index, ID: p.ID, Field: idName[i],
+						What:   fmt.Sprintf("id %q is also used by feature %d", p.ID, at),
+						Action: "pipe kept; ids must be unique for the ranking to be traceable"})
+				} else {
+					seen[p.ID] = p.Index
+				}
+			}
+			probs = append(probs, c.probs[first[i]:end]...)
+		}
+	}
+	return pipes, probs
 }
 
 type pipeReader struct {
@@ -146,7 +197,8 @@ type pipeReader struct {
 	year   int
 	closed []string
 	probs  []Problem
-	seen   map[string]int // id → first feature index
+	seen   map[string]int // id → first feature index; nil: pipes finds repeats
+	idName string         // with seen nil, the member the last pipe's id came from
 }
 
 func (r *pipeReader) add(p *Pipe, field, what, action string) {
@@ -196,6 +248,10 @@ func (r *pipeReader) id(p *Pipe, f *geojson.Feature) {
 	if p.ID == "" {
 		r.add(p, r.s.ID, "id is missing",
 			fmt.Sprintf("pipe kept and named #%d after its position; give every pipe a unique id", p.Index))
+		return
+	}
+	if r.seen == nil { // repeated ids are found afterwards (pipes)
+		r.idName = name
 		return
 	}
 	if first, dup := r.seen[p.ID]; dup {

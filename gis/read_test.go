@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -249,6 +250,71 @@ func TestReadPipesDuplicateID(t *testing.T) {
 	}
 	if !pipes[1].Usable {
 		t.Error("a duplicate id must keep the pipe usable")
+	}
+}
+
+// The pipes are mapped on several goroutines and repeated ids found after;
+// the pipes and the problems must be those of one reader taking the
+// features in order (the reference, pipeReader with a seen map): on 6,000
+// features, with ids repeated within and across chunks, ids in the
+// feature's id member and in a differently cased property, missing ids, and
+// features with a second problem after the id's.
+func TestReadPipesChunkedAsOneReader(t *testing.T) {
+	var features []string
+	for i := range 6000 {
+		id := fmt.Sprintf(`"PIPE_ID":"P-%d"`, i%3500) // features 3500.. repeat earlier ids
+		switch i % 97 {
+		case 5:
+			id = ""
+		case 11:
+			id = fmt.Sprintf(`"pipe_id":"P-%d"`, i%40) // another case: lookup matches it
+		}
+		props := id + `,"DIAM_IN":8,"MATL":"CI","YR":1950`
+		if id == "" {
+			props = props[1:]
+		}
+		if i%13 == 0 {
+			props = strings.Replace(props, `"DIAM_IN":8`, `"DIAM_IN":"eight"`, 1)
+		}
+		f := pipeFeature(props)
+		if i%101 == 7 {
+			f = strings.Replace(f, `{"type":"Feature",`, fmt.Sprintf(`{"type":"Feature","id":"F-%d",`, i%7), 1)
+			f = strings.Replace(f, `"PIPE_ID":`, `"OTHER":`, 1)
+		}
+		features = append(features, f)
+	}
+	fc := mustDecode(t, collection(features...))
+	pipes, probs, err := PipesFromCollection("pipes.geojson", fc, testSchema, 2026)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref := &pipeReader{file: "pipes.geojson", s: testSchema, dUnit: hydraulics.Inch, lUnit: hydraulics.Foot, year: 2026,
+		closed: []string{"closed"}, seen: map[string]int{}}
+	want := make([]Pipe, len(fc.Features))
+	for i, f := range fc.Features {
+		want[i] = ref.pipe(i+1, f)
+	}
+	if !reflect.DeepEqual(pipes, want) {
+		t.Error("the pipes differ from one reader's")
+	}
+	got := featureProblems(probs)
+	if !reflect.DeepEqual(got, ref.probs) {
+		n := min(len(got), len(ref.probs))
+		for k := range n {
+			if !reflect.DeepEqual(got[k], ref.probs[k]) {
+				t.Fatalf("problem %d of %d (reference %d): %+v, want %+v", k, len(got), len(ref.probs), got[k], ref.probs[k])
+			}
+		}
+		t.Fatalf("%d problems, want %d", len(got), len(ref.probs))
+	}
+	dups := 0
+	for _, p := range got {
+		if strings.Contains(p.What, "is also used by feature") {
+			dups++
+		}
+	}
+	if dups < 2000 {
+		t.Errorf("%d repeated-id problems, want the test to make more than 2,000", dups)
 	}
 }
 
