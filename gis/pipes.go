@@ -4,9 +4,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
-	"slices"
 	"strings"
-	"sync"
 
 	"github.com/paulmach/orb"
 	"github.com/paulmach/orb/geojson"
@@ -139,53 +137,20 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 }
 
 // pipes maps the features on GOMAXPROCS goroutines, each with a reader of
-// its own (r with no seen map), and then finds repeated ids in feature
-// order. The problems come out as one reader would list them after
-// before: feature by feature, a repeated id first among its feature's.
+// its own (r with no seen map; mapFeatures finds the repeated ids).
 func (r *pipeReader) pipes(features []*geojson.Feature, before []Problem) ([]Pipe, []Problem) {
-	n := len(features)
-	pipes := make([]Pipe, n)
-	first := make([]int, n)     // feature i's problems start at first[i] in its chunk's
-	idName := make([]string, n) // the member feature i's id came from
-	type chunk struct {
-		lo, hi int
-		probs  []Problem
-	}
-	var chunks []*chunk
-	var mu sync.Mutex
-	forChunks(n, func(lo, hi int) {
+	pipes := make([]Pipe, len(features))
+	probs := mapFeatures(len(features), before, func(i int, probs *[]Problem) (string, string) {
 		cr := *r
-		cr.probs = nil
-		for i := lo; i < hi; i++ {
-			first[i] = len(cr.probs)
-			pipes[i] = cr.pipe(i+1, features[i])
-			idName[i] = cr.idName
-		}
-		mu.Lock()
-		chunks = append(chunks, &chunk{lo, hi, cr.probs})
-		mu.Unlock()
+		cr.probs = *probs
+		pipes[i] = cr.pipe(i+1, features[i])
+		*probs = cr.probs
+		return pipes[i].ID, cr.idName
+	}, func(i int, id, field string, first int) Problem {
+		return Problem{File: r.file, Feature: i + 1, ID: id, Field: field,
+			What:   fmt.Sprintf("id %q is also used by feature %d", id, first),
+			Action: "pipe kept; ids must be unique for the ranking to be traceable"}
 	})
-	slices.SortFunc(chunks, func(a, b *chunk) int { return a.lo - b.lo })
-	probs := before
-	seen := make(map[string]int, n)
-	for _, c := range chunks {
-		for i := c.lo; i < c.hi; i++ {
-			end := len(c.probs)
-			if i+1 < c.hi {
-				end = first[i+1]
-			}
-			if p := &pipes[i]; p.ID != "" {
-				if at, dup := seen[p.ID]; dup {
-					probs = append(probs, Problem{File: r.file, Feature: p.Index, ID: p.ID, Field: idName[i],
-						What:   fmt.Sprintf("id %q is also used by feature %d", p.ID, at),
-						Action: "pipe kept; ids must be unique for the ranking to be traceable"})
-				} else {
-					seen[p.ID] = p.Index
-				}
-			}
-			probs = append(probs, c.probs[first[i]:end]...)
-		}
-	}
 	return pipes, probs
 }
 

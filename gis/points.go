@@ -155,74 +155,83 @@ func readPoints(file string, fc *geojson.FeatureCollection, k pointKind) ([]Poin
 	if err != nil {
 		return nil, nil, err
 	}
-	seen := map[string]int{}
 	pts := make([]Point, len(fc.Features))
+	probs = mapFeatures(len(fc.Features), probs, func(i int, probs *[]Problem) (string, string) {
+		var field string
+		pts[i], field = readPoint(file, k, i, fc.Features[i], probs)
+		return pts[i].ID, field
+	}, func(i int, id, field string, first int) Problem {
+		return Problem{File: file, Feature: i + 1, ID: id, Field: field,
+			What:   fmt.Sprintf("id %q is also used by feature %d", id, first),
+			Action: k.noun + " kept; ids must be unique for the results to be traceable"}
+	})
 	usable := 0
-	for i, f := range fc.Features {
-		p := Point{Index: i + 1, File: file, Usable: true}
-		add := func(field, what, action string) {
-			probs = append(probs, Problem{File: file, Feature: p.Index, ID: p.ID, Field: field, What: what, Action: action})
-		}
-		drop := func(field, what, fix string) {
-			if p.Usable {
-				p.Usable, p.Reason = false, what
-			}
-			add(field, what, k.noun+" left out; "+fix)
-		}
-		if k.id != "" {
-			v, name, ok := lookup(f.Properties, k.id)
-			if !ok {
-				v, name = f.ID, "id"
-			}
-			p.ID = idString(v)
-			if first, dup := seen[p.ID]; dup && p.ID != "" {
-				add(name, fmt.Sprintf("id %q is also used by feature %d", p.ID, first),
-					k.noun+" kept; ids must be unique for the results to be traceable")
-			} else if p.ID != "" {
-				seen[p.ID] = p.Index
-			}
-		}
-		if v, _, ok := lookup(f.Properties, k.name); ok {
-			p.Name = idString(v)
-		}
-		switch g := f.Geometry.(type) {
-		case nil:
-			drop("geometry", "geometry is missing", "supply a Point in lon/lat (WGS84)")
-		case orb.Point:
-			if !validLonLat(g) {
-				drop("geometry", fmt.Sprintf("point (%s, %s) is not a lon/lat position", fmtNum(g[0]), fmtNum(g[1])),
-					"write the layer in lon/lat (WGS84, EPSG:4326) as GeoJSON requires")
-			}
-			p.At = g
-		default:
-			drop("geometry", fmt.Sprintf("geometry is %s, want Point", g.GeoJSONType()), "supply a Point in lon/lat (WGS84)")
-		}
-		v, name, _ := lookup(f.Properties, k.value)
-		if name == "" {
-			name = k.value
-		}
-		fix := "correct the " + k.label
-		x, err := number(v)
-		switch {
-		case err == errMissing:
-			drop(name, k.label+" is missing", fix)
-		case err != nil:
-			drop(name, k.label+" "+err.Error(), fix)
-		default:
-			if what := k.check(x); what != "" {
-				drop(name, fmt.Sprintf("%s %s %s %s", k.label, fmtNum(x), k.unitName, what), fix)
-			} else {
-				p.Value = x * k.unit
-			}
-		}
-		if p.Usable {
+	for i := range pts {
+		if pts[i].Usable {
 			usable++
 		}
-		pts[i] = p
 	}
 	if usable == 0 {
 		return pts, probs, &FieldError{File: file,
 			Err: fmt.Errorf("%w: none of %d %ss can be used; see the problems list", ErrNoUsable, len(pts), k.noun)}
 	}
 	return pts, probs, nil
+}
+
+// readPoint maps feature i of a point layer, appending its problems to
+// probs (all but a repeated id, which readPoints finds), and returns it
+// with the member its id came from.
+func readPoint(file string, k pointKind, i int, f *geojson.Feature, probs *[]Problem) (Point, string) {
+	p := Point{Index: i + 1, File: file, Usable: true}
+	add := func(field, what, action string) {
+		*probs = append(*probs, Problem{File: file, Feature: p.Index, ID: p.ID, Field: field, What: what, Action: action})
+	}
+	drop := func(field, what, fix string) {
+		if p.Usable {
+			p.Usable, p.Reason = false, what
+		}
+		add(field, what, k.noun+" left out; "+fix)
+	}
+	var idField string
+	if k.id != "" {
+		v, name, ok := lookup(f.Properties, k.id)
+		if !ok {
+			v, name = f.ID, "id"
+		}
+		p.ID, idField = idString(v), name
+	}
+	if v, _, ok := lookup(f.Properties, k.name); ok {
+		p.Name = idString(v)
+	}
+	switch g := f.Geometry.(type) {
+	case nil:
+		drop("geometry", "geometry is missing", "supply a Point in lon/lat (WGS84)")
+	case orb.Point:
+		if !validLonLat(g) {
+			drop("geometry", fmt.Sprintf("point (%s, %s) is not a lon/lat position", fmtNum(g[0]), fmtNum(g[1])),
+				"write the layer in lon/lat (WGS84, EPSG:4326) as GeoJSON requires")
+		}
+		p.At = g
+	default:
+		drop("geometry", fmt.Sprintf("geometry is %s, want Point", g.GeoJSONType()), "supply a Point in lon/lat (WGS84)")
+	}
+	v, name, _ := lookup(f.Properties, k.value)
+	if name == "" {
+		name = k.value
+	}
+	fix := "correct the " + k.label
+	x, err := number(v)
+	switch {
+	case err == errMissing:
+		drop(name, k.label+" is missing", fix)
+	case err != nil:
+		drop(name, k.label+" "+err.Error(), fix)
+	default:
+		if what := k.check(x); what != "" {
+			drop(name, fmt.Sprintf("%s %s %s %s", k.label, fmtNum(x), k.unitName, what), fix)
+		} else {
+			p.Value = x * k.unit
+		}
+	}
+	return p, idField
 }

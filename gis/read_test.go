@@ -521,6 +521,46 @@ func TestReadPoints(t *testing.T) {
 	})
 }
 
+// A point layer is read on several goroutines; its problems are listed as
+// one reader taking the points in order lists them: a repeated id first
+// among its feature's problems, then the rest (here the expected list is
+// written out independently of the reader).
+func TestReadPointsChunkedProblemOrder(t *testing.T) {
+	const n, distinct = 5000, 3000
+	var features []string
+	type want struct {
+		feature int
+		what    string
+	}
+	var wants []want
+	for i := range n {
+		q := 10
+		if i%13 == 0 {
+			q = -3
+		}
+		features = append(features, pointFeature(fmt.Sprintf(`"M":"m-%d","Q":%d`, i%distinct, q), -97.5, 35))
+		if i >= distinct {
+			wants = append(wants, want{i + 1, fmt.Sprintf(`id "m-%d" is also used by feature %d`, i%distinct, i%distinct+1)})
+		}
+		if q < 0 {
+			wants = append(wants, want{i + 1, "demand -3 gpm is negative"})
+		}
+	}
+	_, probs, err := DemandsFromCollection("demands.geojson", mustDecode(t, collection(features...)), DemandSchema{ID: "M", Demand: "Q"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	probs = featureProblems(probs)
+	if len(probs) != len(wants) {
+		t.Fatalf("%d problems, want %d", len(probs), len(wants))
+	}
+	for k, w := range wants {
+		if probs[k].Feature != w.feature || probs[k].What != w.what {
+			t.Fatalf("problem %d: feature %d %q, want feature %d %q", k, probs[k].Feature, probs[k].What, w.feature, w.what)
+		}
+	}
+}
+
 // Numeric property values may come as numbers or numeric strings.
 func TestNumber(t *testing.T) {
 	cases := []struct {
