@@ -48,6 +48,10 @@ type spd struct {
 	lVal []float64
 	d    []float64
 
+	// solvePlan runs the triangular solves of solve on the parallel plan
+	// (solveparallel.go); nil: serially.
+	solvePlan *solvePlan
+
 	// Workspaces.
 	snWork supernodeWork
 	work   []float64
@@ -111,6 +115,7 @@ func newSPDOrdered(n int, pairs [][2]int32, perm []int32) *spd {
 	m.fillPattern()
 	m.findSupernodes()
 	m.snWork = m.sn.newWork(n)
+	m.solvePlan = m.solvePlanFor()
 	m.lVal = make([]float64, m.lStart[n])
 	m.d = make([]float64, n)
 	m.work = make([]float64, n)
@@ -317,6 +322,13 @@ func (m *spd) solve(b []float64) {
 	w := m.work
 	for k, v := range m.perm {
 		w[k] = b[v]
+	}
+	if m.solvePlan != nil {
+		m.solveParallel(m.solvePlan, w)
+		for k, v := range m.perm {
+			b[v] = w[k]
+		}
+		return
 	}
 	for j := range m.n {
 		wj := w[j]
