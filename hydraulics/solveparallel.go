@@ -87,31 +87,15 @@ func (m *spd) solveParallel(p *solvePlan, w []float64) {
 	for _, ranges := range p.tasks {
 		wg.Go(func() {
 			for _, r := range ranges {
-				for j := r[0]; j < r[1]; j++ {
-					wj := w[j]
-					if wj == 0 {
-						continue
-					}
-					start, end := m.lStart[j], p.split[j]
-					rows, vals := m.lRow[start:end], m.lVal[start:end]
-					for q, row := range rows {
-						w[row] -= vals[q] * wj
-					}
+				for j := int(r[0]); j < int(r[1]); j++ {
+					m.forwardEntries(w, j, m.lStart[j], p.split[j])
 				}
 			}
 		})
 	}
 	wg.Wait()
 	for _, j := range p.tail {
-		wj := w[j]
-		if wj == 0 {
-			continue
-		}
-		start, end := p.split[j], m.lStart[j+1]
-		rows, vals := m.lRow[start:end], m.lVal[start:end]
-		for q, row := range rows {
-			w[row] -= vals[q] * wj
-		}
+		m.forwardEntries(w, int(j), p.split[j], m.lStart[j+1])
 	}
 	for j := range m.n {
 		w[j] /= m.d[j]

@@ -331,30 +331,29 @@ func (m *spd) solve(b []float64) {
 		return
 	}
 	for j := range m.n {
-		wj := w[j]
-		if wj == 0 {
-			continue
-		}
-		start, end := m.lStart[j], m.lStart[j+1]
-		rows, vals := m.lRow[start:end], m.lVal[start:end]
-		for q, r := range rows {
-			w[r] -= vals[q] * wj
-		}
+		m.forwardEntries(w, j, m.lStart[j], m.lStart[j+1])
 	}
 	for j := range m.n {
 		w[j] /= m.d[j]
 	}
 	for j := m.n - 1; j >= 0; j-- {
-		start, end := m.lStart[j], m.lStart[j+1]
-		rows, vals := m.lRow[start:end], m.lVal[start:end]
-		s := w[j]
-		for q, r := range rows {
-			s -= vals[q] * w[r]
-		}
-		w[j] = s
+		w[j] = m.backwardColumn(w, j)
 	}
 	for k, v := range m.perm {
 		b[v] = w[k]
+	}
+}
+
+// forwardEntries applies entries [start, end) of column j of L to w:
+// w[r] −= L[r][j]·w[j], in ascending row order.
+func (m *spd) forwardEntries(w []float64, j, start, end int) {
+	wj := w[j]
+	if wj == 0 {
+		return
+	}
+	rows, vals := m.lRow[start:end], m.lVal[start:end]
+	for q, r := range rows {
+		w[r] -= vals[q] * wj
 	}
 }
 
