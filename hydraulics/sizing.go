@@ -1,6 +1,10 @@
 package hydraulics
 
-import "math"
+import (
+	"math"
+	"runtime"
+	"sync"
+)
 
 // cast-iron outside-diameter series, inches, by nominal size (AWWA C151
 // ductile iron, shared by AWWA C900 PVC; DOMAIN.md §5.2, confirmed).
@@ -103,28 +107,51 @@ func CheckPipes(net *Network, sol *Solution, lim Limits) []PipeCheck {
 		return nil
 	}
 	checks := make([]PipeCheck, len(net.Pipes))
-	for j, p := range net.Pipes {
-		q := sol.Flow[j]
-		ch := PipeCheck{
-			Flow:     q,
-			Velocity: MeanVelocity(q, p.Diameter),
-			Slope:    FrictionSlope(q, p.Diameter, p.C),
+	sizes := sizesFrom(lim.Sizes, lim.MinNominal)
+	forPipeRanges(len(net.Pipes), func(lo, hi int) {
+		for j := lo; j < hi; j++ {
+			checks[j] = checkPipe(net.Pipes[j], sol.Flow[j], lim, sizes)
 		}
-		if lim.MaxSlope > 0 {
-			ch.Capacity = CarryingFlow(p.Diameter, p.C, lim.MaxSlope)
-			ch.Deficit = max(0, Flow(math.Abs(float64(q)))-ch.Capacity)
-			ch.OverSlope = ch.Slope > lim.MaxSlope
-		}
-		if lim.MaxVelocity > 0 {
-			ch.OverVelocity = ch.Velocity > lim.MaxVelocity
-		}
-		if lim.DesignC > 0 {
-			ch.RequiredInside = RequiredInside(q, lim.DesignC, lim.MaxSlope, lim.MaxVelocity)
-			ch.Required, _ = SmallestSize(sizesFrom(lim.Sizes, lim.MinNominal), ch.RequiredInside)
-		}
-		checks[j] = ch
-	}
+	})
 	return checks
+}
+
+// checkPipe is CheckPipes for one pipe carrying q.
+func checkPipe(p Pipe, q Flow, lim Limits, sizes []Size) PipeCheck {
+	ch := PipeCheck{
+		Flow:     q,
+		Velocity: MeanVelocity(q, p.Diameter),
+		Slope:    FrictionSlope(q, p.Diameter, p.C),
+	}
+	if lim.MaxSlope > 0 {
+		ch.Capacity = CarryingFlow(p.Diameter, p.C, lim.MaxSlope)
+		ch.Deficit = max(0, Flow(math.Abs(float64(q)))-ch.Capacity)
+		ch.OverSlope = ch.Slope > lim.MaxSlope
+	}
+	if lim.MaxVelocity > 0 {
+		ch.OverVelocity = ch.Velocity > lim.MaxVelocity
+	}
+	if lim.DesignC > 0 {
+		ch.RequiredInside = RequiredInside(q, lim.DesignC, lim.MaxSlope, lim.MaxVelocity)
+		ch.Required, _ = SmallestSize(sizes, ch.RequiredInside)
+	}
+	return ch
+}
+
+// forPipeRanges calls body on GOMAXPROCS consecutive ranges covering
+// [0, n) at once, or once for fewer than 2 × 8,192 pipes; body must write
+// only its own range's results.
+func forPipeRanges(n int, body func(lo, hi int)) {
+	workers := min(runtime.GOMAXPROCS(0), n/8192)
+	if workers <= 1 {
+		body(0, n)
+		return
+	}
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() { body(n*w/workers, n*(w+1)/workers) })
+	}
+	wg.Wait()
 }
 
 // LowPressure returns, ascending, the solved junctions whose pressure

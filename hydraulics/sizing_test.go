@@ -234,3 +234,27 @@ func TestCheckPipesMinimumSize(t *testing.T) {
 		})
 	}
 }
+
+// On a network large enough to be checked on several goroutines, every
+// pipe gets its own check: its flow, velocity and slope are those of its
+// own flow and size (MeanVelocity, FrictionSlope), at the index it has.
+func TestCheckPipesChunked(t *testing.T) {
+	net := streetGrid(150, 6, 3) // about 29,000 pipes
+	sol, err := Solve(net, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lim := Limits{MaxSlope: 10.0 / 1000, MaxVelocity: 5 * FootPerSecond}
+	checks := CheckPipes(net, sol, lim)
+	if len(checks) != len(net.Pipes) || len(net.Pipes) < 2*8192 {
+		t.Fatalf("%d checks for %d pipes", len(checks), len(net.Pipes))
+	}
+	for j, p := range net.Pipes {
+		q := sol.Flow[j]
+		c := checks[j]
+		if c.Flow != q || c.Velocity != MeanVelocity(q, p.Diameter) || c.Slope != FrictionSlope(q, p.Diameter, p.C) ||
+			c.OverSlope != (c.Slope > lim.MaxSlope) || c.OverVelocity != (c.Velocity > lim.MaxVelocity) {
+			t.Fatalf("pipe %d: check %+v for flow %v", j, c, q)
+		}
+	}
+}
