@@ -498,15 +498,7 @@ func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
 		in.setNull(1 + j)
 		return nil
 	case kind == packedFloat && c.Kind == Real:
-		f := math.Float64frombits(bits)
-		switch {
-		case math.IsNaN(f) || math.IsInf(f, 0):
-			in.setNull(1 + j)
-		case c.Decimals >= 0:
-			in.setFloat(1+j, gpkgRound(c, f))
-		default:
-			in.setFloat(1+j, f)
-		}
+		in.set(1+j, gpkgRealValue(c, math.Float64frombits(bits)))
 		return nil
 	case kind == packedInt && c.Kind == Integer:
 		in.setInt(1+j, int64(bits))
@@ -522,7 +514,7 @@ func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
 	if err != nil {
 		return err
 	}
-	in.args[in.pending*in.columns+1+j] = v
+	in.set(1+j, v)
 	return nil
 }
 
@@ -574,13 +566,9 @@ func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gp
 	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: make([]sqliteValue, per*columns)}
 }
 
-// set stores the value of column j of the pending row: nil (NULL), or an
-// int64, float64, string or []byte. Every column of a row must be set.
-func (in *gpkgInserter) set(j int, v any) error {
-	x, err := sqliteValueOf(v)
-	in.args[in.pending*in.columns+j] = x
-	return err
-}
+// set stores the value of column j of the pending row. Every column of a
+// row must be set.
+func (in *gpkgInserter) set(j int, v sqliteValue) { in.args[in.pending*in.columns+j] = v }
 
 // setNull, setInt, setFloat, setText and setBlob store the value of
 // column j of the pending row, unboxed.
@@ -833,12 +821,21 @@ func gpkgBind(c Column, v any) (sqliteValue, error) {
 		if err != nil || !ok {
 			return sqliteValue{}, err
 		}
-		if c.Decimals >= 0 {
-			f = gpkgRound(c, f)
-		}
-		return sqliteValue{kind: sqliteFloat, f: f}, nil
+		return gpkgRealValue(c, f), nil
 	}
 	return sqliteValue{}, fmt.Errorf("unknown column kind %v", c.Kind)
+}
+
+// gpkgRealValue is f as stored in the REAL column c: NULL for NaN and ±Inf,
+// else rounded to c.Decimals when that is not negative (gpkgRound).
+func gpkgRealValue(c Column, f float64) sqliteValue {
+	switch {
+	case math.IsNaN(f) || math.IsInf(f, 0):
+		return sqliteValue{}
+	case c.Decimals >= 0:
+		return sqliteValue{kind: sqliteFloat, f: gpkgRound(c, f)}
+	}
+	return sqliteValue{kind: sqliteFloat, f: f}
 }
 
 // gpkgPow10 holds 10^k for k = 0…22, the powers of ten a float64 holds
