@@ -1,9 +1,11 @@
 package hydraulics
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // Options controls Solve. The zero value (and a nil *Options) is valid.
@@ -229,6 +231,8 @@ type gga struct {
 	m   *spd
 	rhs []float64 // right-hand side, then the solution
 
+	excess []float64 // balance's buffer
+
 	pin     *headPin  // the extra unknown of SolvePinned, or nil
 	pinWork []float64 // its buffer, kept between solves
 
@@ -240,7 +244,13 @@ type gga struct {
 	factorisations int
 }
 
-func newGGA(net *Network, o Options) *gga {
+func newGGA(net *Network, o Options) *gga { return newGGARanked(net, o, nil) }
+
+// newGGARanked is newGGA with the elimination order of the head matrix
+// given instead of found: the unknown junctions in ascending rank[i]
+// (per node; ties by node index). With rank nil it finds a fill-reducing
+// order (see fillReducingOrder).
+func newGGARanked(net *Network, o Options, rank []int32) *gga {
 	nn, np := len(net.Nodes), len(net.Pipes)
 	s := &gga{
 		net: net, opt: o,
@@ -300,11 +310,32 @@ func newGGA(net *Network, o Options) *gga {
 		s.pair[j] = int32(len(pairs))
 		pairs = append(pairs, [2]int32{min(a, b), max(a, b)})
 	}
-	s.m = newSPD(s.nUnknown, pairs, xs, ys)
+	if rank == nil {
+		s.m = newSPD(s.nUnknown, pairs, xs, ys)
+	} else {
+		s.m = newSPDOrdered(s.nUnknown, pairs, rankedOrder(s.unknown, rank, s.nUnknown))
+	}
 	s.da, s.db = s.m.permutedRows(s.ua), s.m.permutedRows(s.ub)
 	s.rhs = make([]float64, s.nUnknown)
 	s.demand0 = append([]float64(nil), s.demand...)
 	return s
+}
+
+// rankedOrder returns the rows of the unknown nodes (unknown[i] ≥ 0) in
+// ascending rank[i], ties by node index: an elimination order.
+func rankedOrder(unknown, rank []int32, n int) []int32 {
+	nodes := make([]int32, 0, n)
+	for i, k := range unknown {
+		if k >= 0 {
+			nodes = append(nodes, int32(i))
+		}
+	}
+	slices.SortStableFunc(nodes, func(a, b int32) int { return cmp.Compare(rank[a], rank[b]) })
+	perm := make([]int32, n)
+	for k, i := range nodes {
+		perm[k] = unknown[i]
+	}
+	return perm
 }
 
 // pipeCoefficients returns a pipe's Hazen-Williams resistance r (SI, see
@@ -561,12 +592,12 @@ func (s *gga) assemble(j int, p float64) {
 // branch), and the pipe where it occurs (−1 if none).
 func (s *gga) headResidual() (float64, int) {
 	worst, at := 0.0, -1
-	for j, p := range s.net.Pipes {
-		if !s.solved[j] {
+	for j, ok := range s.solved {
+		if !ok {
 			continue
 		}
 		h, _ := s.lossAndConductance(j, s.q[j])
-		res := math.Abs(s.h[p.From] - s.h[p.To] - h)
+		res := math.Abs(s.h[s.from[j]] - s.h[s.to[j]] - h)
 		if !(res <= worst) { // NaN counts as worst
 			worst, at = res, j
 		}
@@ -576,12 +607,17 @@ func (s *gga) headResidual() (float64, int) {
 
 // balance returns the net inflow minus demand at every node (zero where
 // not solved) and the net outflow of the fixed nodes.
+// The slice is the clone's own buffer, overwritten by the next call.
 func (s *gga) balance() (excess []float64, supply float64) {
-	excess = make([]float64, len(s.net.Nodes))
-	for j, p := range s.net.Pipes {
-		if s.solved[j] {
-			excess[p.From] -= s.q[j]
-			excess[p.To] += s.q[j]
+	if len(s.excess) != len(s.net.Nodes) {
+		s.excess = make([]float64, len(s.net.Nodes))
+	}
+	excess = s.excess
+	clear(excess)
+	for j, ok := range s.solved {
+		if ok {
+			excess[s.from[j]] -= s.q[j]
+			excess[s.to[j]] += s.q[j]
 		}
 	}
 	for i, nd := range s.net.Nodes {

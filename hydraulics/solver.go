@@ -25,7 +25,11 @@ type Solver struct {
 // opt and prepares the head system. It returns ErrNoSupply when no junction
 // is joined to a fixed node through open pipes. Cost: the ordering, about
 // O(n log n) for a planar network of n junctions, plus O(nnz(L)).
-func NewSolver(net *Network, opt *Options) (*Solver, error) {
+func NewSolver(net *Network, opt *Options) (*Solver, error) { return newSolverRanked(net, opt, nil) }
+
+// newSolverRanked is NewSolver with the elimination order given by rank
+// (see newGGARanked); nil finds one.
+func newSolverRanked(net *Network, opt *Options, rank []int32) (*Solver, error) {
 	if net == nil {
 		return nil, errors.New("hydraulics: solve: nil network")
 	}
@@ -36,7 +40,7 @@ func NewSolver(net *Network, opt *Options) (*Solver, error) {
 	if err != nil {
 		return nil, err
 	}
-	g := newGGA(net, o)
+	g := newGGARanked(net, o, rank)
 	if g.nUnknown == 0 {
 		return nil, ErrNoSupply
 	}
@@ -57,7 +61,7 @@ func (s *Solver) Clone() *Solver {
 	g.shut = make([]bool, len(s.g.shut))
 	g.rhs = make([]float64, len(s.g.rhs))
 	g.m = s.g.m.cloneNumeric()
-	g.pin, g.pinWork = nil, nil
+	g.pin, g.pinWork, g.excess = nil, nil, nil
 	g.factored, g.reuse = false, false
 	return &Solver{g: &g}
 }
