@@ -318,3 +318,65 @@ func TestCureGradeDriven(t *testing.T) {
 		t.Errorf("available after %.1f gpm, want at least the needed 2000 gpm", got)
 	}
 }
+
+// TestCureVerifySolvesAfresh: verify must not trust a hydrant result kept
+// from an earlier network (a screened evaluation): given an evaluation of
+// the six-inch network in which the 1,500-gpm hydrant's stale result
+// claims a pass, it solves that hydrant again, finds it short (the hand
+// calculation in cureSixInchNet's comment: the 6-in main alone loses more
+// than the grade holds) and lists the failure, with the margin of a full
+// evaluation of the same network; the stale solutions are let go.
+func TestCureVerifySolvesAfresh(t *testing.T) {
+	in := UpsizeInput{Network: cureSixInchNet(), Scenarios: cureScenarios(), FireBackground: 1,
+		Hydrants: []UpsizeHydrant{{Node: 2, Needed: 1500 * USGallonPerMinute}, {Node: 3, Needed: 1000 * USGallonPerMinute}},
+		Limits:   cureLimits()}
+	c, err := newCure(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	none := make([]int, len(c.group))
+	for g := range none {
+		none[g] = -1
+	}
+	full, err := c.evaluate(none, nil, true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fireFails := func(e *cureEval) int {
+		n := 0
+		for _, it := range e.fails {
+			if it.crit == CriterionFireFlow && it.index == 0 {
+				n++
+			}
+		}
+		return n
+	}
+	if full.fire[0].margin >= 0 || fireFails(full) != 1 {
+		t.Fatalf("full evaluation: hydrant margin %.0f Pa, %d fire-flow failures: the test needs a short hydrant", full.fire[0].margin, fireFails(full))
+	}
+	stale := *full
+	stale.fire = append([]cureFire(nil), full.fire...)
+	stale.fire[0].margin = 1e5 // a pass carried over from another network
+	stale.fails = nil
+	c.listFails(&stale)
+	stale.screened = true
+	if fireFails(&stale) != 0 {
+		t.Fatal("the forged evaluation still lists the hydrant")
+	}
+	v, err := c.verify(&stale)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v.screened || fireFails(v) != 1 {
+		t.Errorf("verified: screened %v, %d fire-flow failures of the short hydrant; want false, 1", v.screened, fireFails(v))
+	}
+	// Both are solves of the same network to the same tolerance.
+	if d := math.Abs(v.fire[0].margin - full.fire[0].margin); d > 0.01*float64(PoundPerSquareInch) {
+		t.Errorf("verified margin %.1f Pa, full evaluation %.1f Pa", v.fire[0].margin, full.fire[0].margin)
+	}
+	for k, f := range stale.fire {
+		if f.sol != nil {
+			t.Errorf("hydrant %d: the stale solution is still held after verify", k)
+		}
+	}
+}
