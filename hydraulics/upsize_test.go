@@ -325,7 +325,8 @@ func TestCureGradeDriven(t *testing.T) {
 // claims a pass, it solves that hydrant again, finds it short (the hand
 // calculation in cureSixInchNet's comment: the 6-in main alone loses more
 // than the grade holds) and lists the failure, with the margin of a full
-// evaluation of the same network; the stale solutions are let go.
+// evaluation of the same network; the stale solutions are let go, and the
+// hydrant is re-solved in every trial after.
 func TestCureVerifySolvesAfresh(t *testing.T) {
 	in := UpsizeInput{Network: cureSixInchNet(), Scenarios: cureScenarios(), FireBackground: 1,
 		Hydrants: []UpsizeHydrant{{Node: 2, Needed: 1500 * USGallonPerMinute}, {Node: 3, Needed: 1000 * USGallonPerMinute}},
@@ -378,5 +379,20 @@ func TestCureVerifySolvesAfresh(t *testing.T) {
 		if f.sol != nil {
 			t.Errorf("hydrant %d: the stale solution is still held after verify", k)
 		}
+	}
+	// The hydrant whose kept pass was wrong is re-solved in every later
+	// trial; the other, which passed both times, may still be screened.
+	if !c.unscreened[0] || c.unscreened[1] {
+		t.Errorf("unscreened %v after verify: want [true false]", c.unscreened)
+	}
+	// A kept pass again (a failing result is re-solved anyway): the next
+	// trial, which changes no main, must still solve it.
+	v.fire[0].margin = 1e5
+	next, err := c.evaluate(none, v, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if next.fire[0].sol == v.fire[0].sol {
+		t.Error("the unscreened hydrant kept its result in the next trial")
 	}
 }
