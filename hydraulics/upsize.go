@@ -538,15 +538,11 @@ func (c *cure) run() (*UpsizeResult, error) {
 func (c *cure) verify(e *cureEval) (*cureEval, error) {
 	v := *e
 	v.fails, v.screened = nil, false
-	passed := make([]bool, len(e.fire))
-	for k, f := range e.fire {
-		passed[k] = !f.skip && f.margin >= 0
-	}
 	if err := c.fireChecks(&v, e, nil, true, false, true); err != nil {
 		return nil, err
 	}
-	for k, f := range v.fire {
-		if passed[k] && f.margin < 0 {
+	for k, f := range v.fire { // e.fire keeps its margins (fireChecks gave v its own)
+		if was := e.fire[k]; !was.skip && was.margin >= 0 && f.margin < 0 {
 			c.unscreened[k] = true
 		}
 	}
