@@ -299,9 +299,57 @@ func gpkgSyncFile(name string) error {
 	return f.Close()
 }
 
-// gpkgBuild writes the whole GeoPackage into the empty file tmp, in one
-// transaction on a direct connection (sqliteConn).
-func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkgPlan) (err error) {
+// gpkgBuild writes the whole GeoPackage into the empty file tmp in three
+// steps: SQLite creates the GeoPackage tables and the empty feature tables
+// in one transaction on a direct connection (sqliteConn); the feature
+// rows are then written into the closed file as B-tree pages
+// (sqliteTableAppender); and SQLite, opening it again, writes each table's
+// gpkg_contents and gpkg_geometry_columns rows and its spatial index.
+func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkgPlan) error {
+	roots, err := gpkgCreate(tmp, srsRows, plans)
+	if err != nil {
+		return err
+	}
+	filled := make([]gpkgFeatures, len(plans))
+	for k, p := range plans {
+		filled[k] = gpkgFeatures{file: file, srsID: srsID, plan: p}
+		if err := filled[k].fill(tmp, roots[k]); err != nil {
+			return err
+		}
+	}
+	return gpkgSQL(tmp, false, func(tx *gpkgTx) error {
+		for k := range filled {
+			if err := gpkgIndexTable(tx, &filled[k]); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+}
+
+// gpkgCreate makes the GeoPackage tables and each plan's empty feature
+// table in tmp and returns the feature tables' root pages.
+func gpkgCreate(tmp string, srsRows []gpkgSRSRow, plans []gpkgPlan) ([]int64, error) {
+	roots := make([]int64, len(plans))
+	err := gpkgSQL(tmp, true, func(tx *gpkgTx) error {
+		if err := gpkgWriteCore(tx, srsRows); err != nil {
+			return err
+		}
+		for k, p := range plans {
+			var err error
+			if roots[k], err = gpkgCreateTable(tx, p); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	return roots, err
+}
+
+// gpkgSQL runs build in one transaction on a direct connection to the
+// database file tmp, set up for a bulk load, and closes it; create also
+// sets the GeoPackage's application_id and user_version.
+func gpkgSQL(tmp string, create bool, build func(tx *gpkgTx) error) (err error) {
 	uri, err := gpkgURI(tmp, "")
 	if err != nil {
 		return err
@@ -315,13 +363,18 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 			err = cerr
 		}
 	}()
-	for _, p := range []string{
-		"PRAGMA application_id = " + strconv.Itoa(gpkgApplicationID),
-		"PRAGMA user_version = " + strconv.Itoa(gpkgUserVersion),
+	pragmas := []string{
 		"PRAGMA journal_mode = MEMORY", // the file is a temporary one until renamed
 		"PRAGMA synchronous = OFF",     // it is synced once, when complete
 		"PRAGMA cache_size = -65536",   // 64 MiB of page cache: the R-tree load touches its nodes at random
-	} {
+	}
+	if create {
+		pragmas = append([]string{
+			"PRAGMA application_id = " + strconv.Itoa(gpkgApplicationID),
+			"PRAGMA user_version = " + strconv.Itoa(gpkgUserVersion),
+		}, pragmas...)
+	}
+	for _, p := range pragmas {
 		if err := c.exec(p); err != nil {
 			return fmt.Errorf("%s: %w", p, err)
 		}
@@ -329,19 +382,13 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 	if err := c.exec("BEGIN"); err != nil {
 		return err
 	}
-	tx := &gpkgTx{c: c}
 	defer func() {
 		if err != nil {
 			c.exec("ROLLBACK")
 		}
 	}()
-	if err := gpkgWriteCore(tx, srsRows); err != nil {
+	if err := build(&gpkgTx{c: c}); err != nil {
 		return err
-	}
-	for _, p := range plans {
-		if err := gpkgWriteTable(tx, file, srsID, p); err != nil {
-			return err
-		}
 	}
 	return c.exec("COMMIT")
 }
@@ -377,99 +424,129 @@ func gpkgSQLType(k Kind) string {
 	return "TEXT"
 }
 
-// gpkgWriteTable creates, fills and indexes one feature table.
-func gpkgWriteTable(tx *gpkgTx, file string, srsID int32, p gpkgPlan) error {
+// gpkgCreateTable creates p's feature table, empty, and returns its root
+// page.
+func gpkgCreateTable(tx *gpkgTx, p gpkgPlan) (int64, error) {
 	l := p.layer
-	t := gpkgQuote(l.Name)
 	defs := []string{gpkgQuote(gpkgFidColumn) + " INTEGER PRIMARY KEY AUTOINCREMENT NOT NULL", gpkgQuote(gpkgGeomColumn) + " " + p.geomType}
-	names := []string{gpkgQuote(gpkgGeomColumn)} // the fid is SQLite's to give (gpkgCheckFids)
 	for _, c := range l.Columns {
 		defs = append(defs, gpkgQuote(c.Name)+" "+gpkgSQLType(c.Kind))
-		names = append(names, gpkgQuote(c.Name))
 	}
-	if _, err := tx.Exec("CREATE TABLE " + t + " (" + strings.Join(defs, ", ") + ")"); err != nil {
-		return fmt.Errorf("creating table %q: %w", l.Name, err)
+	if _, err := tx.Exec("CREATE TABLE " + gpkgQuote(l.Name) + " (" + strings.Join(defs, ", ") + ")"); err != nil {
+		return 0, fmt.Errorf("creating table %q: %w", l.Name, err)
 	}
-	w := gpkgFeatures{file: file, srsID: srsID, plan: p,
-		ins:   newGpkgInserter(tx, "INSERT INTO "+t+" ("+strings.Join(names, ", ")+") VALUES ", len(names), gpkgRowsPerInsert),
-		boxes: make([]orb.Bound, l.Len()), has: make([]bool, l.Len())}
-	defer w.ins.close()
-	rd := l.Reader()
-	for i := range l.Len() {
-		if err := w.add(i, rd); err != nil {
-			return err
+	root, null, err := tx.queryInt64("SELECT rootpage FROM sqlite_schema WHERE type = 'table' AND name = " + gpkgLiteral(l.Name))
+	if err == nil && null {
+		err = errors.New("no root page")
+	}
+	if err != nil {
+		return 0, fmt.Errorf("table %q: finding its root page: %w", l.Name, err)
+	}
+	return root, nil
+}
+
+// gpkgIndexTable checks the rows written into w's table and writes its
+// sqlite_sequence, gpkg_contents and gpkg_geometry_columns rows and its
+// R-tree.
+func gpkgIndexTable(tx *gpkgTx, w *gpkgFeatures) error {
+	l, p := w.plan.layer, w.plan
+	if err := gpkgCheckFids(tx, l.Name, w.rows); err != nil {
+		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	}
+	if w.rows > 0 { // the AUTOINCREMENT counter SQLite keeps for the table (sqlite.org/autoinc.html)
+		if _, err := tx.Exec(`INSERT INTO sqlite_sequence (name, seq) VALUES (?, ?)`, l.Name, int64(w.rows)); err != nil {
+			return fmt.Errorf("table %q: sqlite_sequence: %w", l.Name, err)
 		}
-	}
-	if err := w.ins.flush(); err != nil {
-		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
-	}
-	if err := gpkgCheckFids(tx, l.Name, w.ins.written); err != nil {
-		return &FieldError{File: file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
 	var bounds [4]any
 	if w.haveExtent {
 		bounds = [4]any{w.extent.Min[0], w.extent.Min[1], w.extent.Max[0], w.extent.Max[1]}
 	}
 	if _, err := tx.Exec(`INSERT INTO gpkg_contents (table_name, data_type, identifier, description, last_change, min_x, min_y, max_x, max_y, srs_id) VALUES (?, 'features', ?, '', ?, ?, ?, ?, ?, ?)`,
-		l.Name, l.Name, gpkgLastChange, bounds[0], bounds[1], bounds[2], bounds[3], srsID); err != nil {
+		l.Name, l.Name, gpkgLastChange, bounds[0], bounds[1], bounds[2], bounds[3], w.srsID); err != nil {
 		return fmt.Errorf("table %q: gpkg_contents: %w", l.Name, err)
 	}
 	if _, err := tx.Exec(`INSERT INTO gpkg_geometry_columns (table_name, column_name, geometry_type_name, srs_id, z, m) VALUES (?, ?, ?, ?, 0, 0)`,
-		l.Name, gpkgGeomColumn, p.geomType, srsID); err != nil {
+		l.Name, gpkgGeomColumn, p.geomType, w.srsID); err != nil {
 		return fmt.Errorf("table %q: gpkg_geometry_columns: %w", l.Name, err)
 	}
 	return gpkgWriteRtree(tx, l.Name, w.boxes, w.has)
 }
 
-// gpkgCheckFids checks that SQLite numbered the n rows just inserted into
-// the new table 1, 2, … n in row order, as the R-tree and the error
-// messages take them to be. The INSERTs leave the fid out: SQLite then
-// picks it without the uniqueness search a given key costs, and binds one
-// value less a row. An AUTOINCREMENT key is larger than any the table ever
-// had (sqlite.org/autoinc.html), so the keys rise row by row from at least
-// 1, and n rising keys from 1 up whose largest is n are exactly 1 … n.
+// gpkgCheckFids checks, through SQLite, that the table holds n rows keyed
+// 1 … n: the largest fid is n (the rows were written with the keys 1, 2,
+// … in row order, which the R-tree and the error messages take them to
+// be).
 func gpkgCheckFids(tx *gpkgTx, table string, n int) error {
-	last, _, err := tx.queryInt64("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table))
+	last, null, err := tx.queryInt64("SELECT max(" + gpkgQuote(gpkgFidColumn) + ") FROM " + gpkgQuote(table))
 	if err != nil {
 		return fmt.Errorf("reading the last fid: %w", err)
 	}
+	if null {
+		last = 0
+	}
 	if last != int64(n) {
-		return fmt.Errorf("SQLite numbered %d features up to fid %d, not 1 to %d", n, last, n)
+		return fmt.Errorf("%d features written, but the last fid is %d", n, last)
 	}
 	return nil
 }
 
 // gpkgFeatures fills one feature table: each row's geometry blob and
-// values go to the inserter, its envelope to the R-tree and the extent.
+// values go to the table's B-tree (sqliteTableAppender), its envelope to
+// the R-tree and the extent.
 type gpkgFeatures struct {
 	file       string
 	srsID      int32
 	plan       gpkgPlan
-	ins        *gpkgInserter
+	row        gpkgRow
+	out        *sqliteTableAppender
+	rows       int         // rows written
 	boxes      []orb.Bound // row i's envelope, if has[i]
 	has        []bool
 	extent     orb.Bound
 	haveExtent bool
-	blobs      []byte // the pending rows' geometries, end to end; the driver copies them when it binds
+	blob       []byte // the row's geometry
 }
 
-// add writes row i (0-based; SQLite gives it fid i+1, gpkgCheckFids),
-// read through rd: packed numbers and text unboxed (cell), other values
-// through gpkgBind.
+// fill writes every row of w's layer into its table, whose root page is
+// root, in the closed database file tmp.
+func (w *gpkgFeatures) fill(tmp string, root int64) error {
+	l := w.plan.layer
+	real := make([]bool, 2+len(l.Columns)) // fid, geom, then the columns
+	for j, c := range l.Columns {
+		real[2+j] = c.Kind == Real
+	}
+	out, err := openSQLiteTableAppender(tmp, root, real)
+	if err != nil {
+		return fmt.Errorf("table %q: %w", l.Name, err)
+	}
+	w.out, w.row = out, make(gpkgRow, len(real))
+	w.boxes, w.has = make([]orb.Bound, l.Len()), make([]bool, l.Len())
+	rd := l.Reader()
+	for i := range l.Len() {
+		if err = w.add(i, rd); err != nil {
+			break
+		}
+	}
+	if ferr := out.finish(); err == nil && ferr != nil {
+		err = &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, ferr)}
+	}
+	return err
+}
+
+// add writes row i (0-based; it gets fid i+1), read through rd: packed
+// numbers and text unboxed (cell), other values through gpkgBind.
 func (w *gpkgFeatures) add(i int, rd *RowReader) error {
-	l, in := w.plan.layer, w.ins
+	l, row := w.plan.layer, w.row
 	if n := rd.width(i); n != len(l.Columns) {
 		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %d values for %d columns", l.Name, n, len(l.Columns))}
 	}
-	if in.pending == 0 {
-		w.blobs = w.blobs[:0]
-	}
-	in.setNull(0)
+	row.setNull(0) // the fid: an INTEGER PRIMARY KEY is the rowid, stored as NULL
+	row.setNull(1)
 	if g := gpkgPromote(rd.Geometry(i), w.plan.promote); gpkgWritable(g) {
 		w.boxes[i], w.has[i] = g.Bound(), true
-		start := len(w.blobs)
-		w.blobs = gpkgEncodeGeometry(w.blobs, w.srsID, g, w.boxes[i])
-		in.setBlob(0, w.blobs[start:len(w.blobs):len(w.blobs)])
+		w.blob = gpkgEncodeGeometry(w.blob[:0], w.srsID, g, w.boxes[i])
+		row.setBlob(1, w.blob)
 		if w.haveExtent {
 			w.extent = w.extent.Union(w.boxes[i])
 		} else {
@@ -481,32 +558,42 @@ func (w *gpkgFeatures) add(i int, rd *RowReader) error {
 			return &FieldError{File: w.file, Feature: i + 1, Field: c.Name, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 		}
 	}
-	if err := in.rowDone(); err != nil {
-		return &FieldError{File: w.file, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
+	if err := w.out.appendRow(row); err != nil {
+		return &FieldError{File: w.file, Feature: i + 1, Err: fmt.Errorf("layer %q: %w", l.Name, err)}
 	}
+	w.rows++
 	return nil
 }
+
+// gpkgRow is the values of one row, column by column.
+type gpkgRow []sqliteValue
+
+func (r gpkgRow) set(j int, v sqliteValue) { r[j] = v }
+func (r gpkgRow) setNull(j int)            { r[j] = sqliteValue{} }
+func (r gpkgRow) setInt(j int, v int64)    { r[j] = sqliteValue{kind: sqliteInt, i: v} }
+func (r gpkgRow) setText(j int, v string)  { r[j] = sqliteValue{kind: sqliteText, s: v} }
+func (r gpkgRow) setBlob(j int, b []byte)  { r[j] = sqliteValue{kind: sqliteBlob, b: b} }
 
 // cell stores row i's value of column j as gpkgBind would: the common
 // cases of a packed layer (a null, a float in a REAL column, an int in an
 // INTEGER column, text in a TEXT column) without boxing them.
 func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
-	in := w.ins
+	in := w.row
 	bits, kind := rd.scalar(i, j)
 	switch {
 	case kind == packedNone:
-		in.setNull(1 + j)
+		in.setNull(2 + j)
 		return nil
 	case kind == packedFloat && c.Kind == Real:
-		in.set(1+j, gpkgRealValue(c, math.Float64frombits(bits)))
+		in.set(2+j, gpkgRealValue(c, math.Float64frombits(bits)))
 		return nil
 	case kind == packedInt && c.Kind == Integer:
-		in.setInt(1+j, int64(bits))
+		in.setInt(2+j, int64(bits))
 		return nil
 	}
 	if c.Kind == String {
 		if s, ok := rd.text(i, j); ok {
-			in.setText(1+j, s)
+			in.setText(2+j, s)
 			return nil
 		}
 	}
@@ -514,7 +601,7 @@ func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
 	if err != nil {
 		return err
 	}
-	in.set(1+j, v)
+	in.set(2+j, v)
 	return nil
 }
 
@@ -950,4 +1037,10 @@ func gpkgReal(v any) (f float64, ok bool, err error) {
 		return 0, false, nil
 	}
 	return f, true, nil
+}
+
+// gpkgLiteral is s as an SQL string literal: in single quotes, each
+// single quote doubled.
+func gpkgLiteral(s string) string {
+	return "'" + strings.ReplaceAll(s, "'", "''") + "'"
 }

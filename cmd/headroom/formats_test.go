@@ -1,6 +1,7 @@
 package main
 
 import (
+	"encoding/json"
 	"math"
 	"os"
 	"os/exec"
@@ -153,7 +154,31 @@ func checkOnTopOfInputs(t *testing.T, dir, out string) {
 				}
 			}
 		}
+		// The attributes too: pipes.gpkg holds pipes.geojson's values, field for field.
+		gpProps, jsProps := gp.Features.Features[i].Properties, js.Features[i].Properties
+		if len(gpProps) != len(jsProps) {
+			t.Fatalf("pipes.gpkg feature %d: %d fields, pipes.geojson %d", i+1, len(gpProps), len(jsProps))
+		}
+		for k, v := range jsProps {
+			if a, b := canonicalValue(gpProps[k]), canonicalValue(v); a != b {
+				t.Fatalf("pipes.gpkg feature %d: %s = %v, pipes.geojson has %v", i+1, k, a, b)
+			}
+		}
 	}
+}
+
+// canonicalValue is a property value read from GeoJSON (json.Number) or a
+// GeoPackage (int64, float64) as one comparable value: numbers as float64.
+func canonicalValue(v any) any {
+	switch x := v.(type) {
+	case json.Number:
+		if f, err := x.Float64(); err == nil {
+			return f
+		}
+	case int64:
+		return float64(x)
+	}
+	return v
 }
 
 // Every layer headroom writes opens in GDAL with the right feature count,
