@@ -1,6 +1,7 @@
 package report
 
 import (
+	"bufio"
 	"bytes"
 	"cmp"
 	"embed"
@@ -22,14 +23,28 @@ var assets embed.FS
 
 // WriteHTML writes d as one self-contained HTML page: inline CSS, inline
 // JavaScript and SVG drawn from the data, with no external file, font,
-// script or tile. The page is rendered in full before anything is written,
-// so a failure leaves w untouched. The same Document gives the same bytes.
+// script or tile. The page is streamed into w as the template runs (at a
+// million pipes it is tens of megabytes, which a buffer would hold twice
+// over while it grows), so a failure partway leaves part of a page in w:
+// write files through gis.WriteFileAtomic, which keeps only a whole one.
+// The same Document gives the same bytes.
 func WriteHTML(w io.Writer, d *Document) error {
-	b, err := RenderHTML(d)
+	if d == nil {
+		return errors.New("report: no document to render")
+	}
+	t, err := pageTemplate()
 	if err != nil {
 		return err
 	}
-	if _, err := w.Write(b); err != nil {
+	p, err := newPage(d)
+	if err != nil {
+		return err
+	}
+	bw := bufio.NewWriterSize(w, 256<<10)
+	if err := t.Execute(bw, p); err != nil {
+		return fmt.Errorf("report: rendering the HTML report: %w", err)
+	}
+	if err := bw.Flush(); err != nil {
 		return fmt.Errorf("report: writing the HTML report: %w", err)
 	}
 	return nil
@@ -37,20 +52,9 @@ func WriteHTML(w io.Writer, d *Document) error {
 
 // RenderHTML returns the page WriteHTML writes.
 func RenderHTML(d *Document) ([]byte, error) {
-	if d == nil {
-		return nil, errors.New("report: no document to render")
-	}
-	t, err := pageTemplate()
-	if err != nil {
-		return nil, err
-	}
-	p, err := newPage(d)
-	if err != nil {
-		return nil, err
-	}
 	var buf bytes.Buffer
-	if err := t.Execute(&buf, p); err != nil {
-		return nil, fmt.Errorf("report: rendering the HTML report: %w", err)
+	if err := WriteHTML(&buf, d); err != nil {
+		return nil, err
 	}
 	return buf.Bytes(), nil
 }
