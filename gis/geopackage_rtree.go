@@ -14,12 +14,13 @@ import (
 // The R-tree index of a GeoPackage table (OGC 12-128 Annex F.3) is an
 // SQLite R*Tree virtual table, rtree_<t>_geom(id, minx, maxx, miny, maxy).
 // Filling it row by row runs SQLite's R*Tree insertion (choose a leaf,
-// split full nodes) once per feature. gpkgLoadRtree instead packs the
+// split full nodes) once per feature. gpkgFillRtree instead packs the
 // whole tree in Go, with Sort-Tile-Recursive, and writes its nodes straight
 // into the three tables that hold an R*Tree, as GDAL's GeoPackage driver
-// does for a bulk load (sqlite_rtree_bulk_load.c, GDAL 3.9). The tables
-// and the node format are those of SQLite's ext/rtree/rtree.c ("Database
-// Format of R-Tree Tables"):
+// does for a bulk load (sqlite_rtree_bulk_load.c, GDAL 3.9), and those as
+// B-tree pages of the closed file (sqliteTableAppender), as the feature
+// rows are written. The tables and the node format are those of SQLite's
+// ext/rtree/rtree.c ("Database Format of R-Tree Tables"):
 //
 //	<r>_node(nodeno INTEGER PRIMARY KEY, data BLOB)   one row per node; the root is node 1
 //	<r>_parent(nodeno INTEGER PRIMARY KEY, parentnode INTEGER)   one row per node but the root
@@ -58,20 +59,60 @@ type rtreeNode struct {
 	cells []rtreeCell
 }
 
-// gpkgLoadRtree fills the empty R*Tree rtree (just created) with the boxes
-// of the rows that have one (has[i]); row i's id is its fid, i+1.
-func gpkgLoadRtree(tx *gpkgTx, rtree string, boxes []orb.Bound, has []bool) error {
-	size, null, err := tx.queryInt64("SELECT length(data) FROM " + gpkgQuote(rtree+"_node") + " WHERE nodeno = 1")
+// gpkgRtreeTables are the root pages of an R*Tree's three shadow tables
+// and the size of its node blobs, as SQLite made them.
+type gpkgRtreeTables struct {
+	node, parent, rowid int64
+	nodeBytes           int
+}
+
+// gpkgCreateRtree creates the R*Tree rtree, reads the size of the empty
+// root node SQLite puts in its node table (the node size it chose for the
+// page size), deletes that row, so that all three shadow tables are
+// empty for gpkgFillRtree, and returns the tables.
+func gpkgCreateRtree(tx *gpkgTx, rtree string) (gpkgRtreeTables, error) {
+	var rt gpkgRtreeTables
+	if _, err := tx.Exec("CREATE VIRTUAL TABLE " + gpkgQuote(rtree) + " USING rtree(id, minx, maxx, miny, maxy)"); err != nil {
+		return rt, fmt.Errorf("creating the spatial index: %w", err)
+	}
+	node := gpkgQuote(rtree + "_node")
+	size, null, err := tx.queryInt64("SELECT length(data) FROM " + node + " WHERE nodeno = 1")
 	if err == nil && null {
 		err = errors.New("the root node has no data")
 	}
 	if err != nil {
-		return fmt.Errorf("reading the spatial index root: %w", err)
+		return rt, fmt.Errorf("reading the spatial index root: %w", err)
 	}
-	nodeBytes := int(size)
-	fanout := min(rtreeMaxCells, (nodeBytes-4)/rtreeCellBytes)
+	rt.nodeBytes = int(size)
+	if _, err := tx.Exec("DELETE FROM " + node); err != nil {
+		return rt, fmt.Errorf("emptying the spatial index: %w", err)
+	}
+	for _, t := range []struct {
+		suffix string
+		root   *int64
+	}{{"node", &rt.node}, {"parent", &rt.parent}, {"rowid", &rt.rowid}} {
+		root, null, err := tx.queryInt64("SELECT rootpage FROM sqlite_schema WHERE type = 'table' AND name = " + gpkgLiteral(rtree+"_"+t.suffix))
+		if err == nil && null {
+			err = errors.New("no root page")
+		}
+		if err != nil {
+			return rt, fmt.Errorf("spatial index table %s_%s: %w", rtree, t.suffix, err)
+		}
+		*t.root = root
+	}
+	return rt, nil
+}
+
+// gpkgFillRtree packs the boxes of the rows that have one (has[i]; row i's
+// id is its fid, i+1) into a tree and writes its rows into the empty
+// shadow tables rt of the closed database file tmp as B-tree pages
+// (sqliteTableAppender): every node, the root as node 1; each node's
+// parent but the root's; each feature's leaf. With no boxes the tree is
+// the empty root alone.
+func gpkgFillRtree(tmp string, rt gpkgRtreeTables, boxes []orb.Bound, has []bool) error {
+	fanout := min(rtreeMaxCells, (rt.nodeBytes-4)/rtreeCellBytes)
 	if fanout < 2 {
-		return fmt.Errorf("spatial index nodes of %d bytes hold fewer than 2 cells", nodeBytes)
+		return fmt.Errorf("spatial index nodes of %d bytes hold fewer than 2 cells", rt.nodeBytes)
 	}
 	var leaves []rtreeCell
 	for i, b := range boxes {
@@ -79,11 +120,33 @@ func gpkgLoadRtree(tx *gpkgTx, rtree string, boxes []orb.Bound, has []bool) erro
 			leaves = append(leaves, rtreeBox(int64(i+1), b))
 		}
 	}
-	if len(leaves) == 0 {
-		return nil // the empty root SQLite made is the whole tree
+	levels := [][]rtreeNode{{{no: 1}}} // the empty root
+	if len(leaves) > 0 {
+		levels = rtreePack(leaves, fanout)
 	}
-	levels := rtreePack(leaves, fanout)
-	return rtreeWrite(tx, rtree, nodeBytes, levels)
+	if len(levels)-1 > math.MaxUint16 {
+		return fmt.Errorf("spatial index %d levels deep", len(levels))
+	}
+	if err := rtreeAppendNodes(tmp, rt.node, rt.nodeBytes, levels); err != nil {
+		return err
+	}
+	var parents, rowids [][2]int64 // (rowid, node); rtreeAppendPairs sorts them
+	for l := 1; l < len(levels); l++ {
+		for _, n := range levels[l] {
+			for _, c := range n.cells {
+				parents = append(parents, [2]int64{c.id, n.no})
+			}
+		}
+	}
+	for _, n := range levels[0] {
+		for _, c := range n.cells {
+			rowids = append(rowids, [2]int64{c.id, n.no})
+		}
+	}
+	if err := rtreeAppendPairs(tmp, rt.parent, parents); err != nil {
+		return err
+	}
+	return rtreeAppendPairs(tmp, rt.rowid, rowids)
 }
 
 // rtreeBox is b as a cell, rounded outwards to float32.
@@ -214,88 +277,59 @@ func rtreeCover(cells []rtreeCell) rtreeCell {
 	return c
 }
 
-// rtreeWrite stores the packed levels in rtree's shadow tables: the root
-// over the empty node 1, every other node with its parent, and each
-// feature's leaf, many rows to a statement (gpkgInserter).
-func rtreeWrite(tx *gpkgTx, rtree string, nodeBytes int, levels [][]rtreeNode) error {
+// rtreeAppendNodes writes the packed levels into the empty node table
+// whose root page is root, one row (nodeno, data) a node in node-number
+// order: the root, node 1, with the tree's depth, then each level below.
+func rtreeAppendNodes(tmp string, root int64, nodeBytes int, levels [][]rtreeNode) (err error) {
+	out, err := openSQLiteTableAppender(tmp, root, nil)
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if ferr := out.finish(); err == nil {
+			err = ferr
+		}
+	}()
 	depth := len(levels) - 1
-	if depth > math.MaxUint16 {
-		return fmt.Errorf("spatial index %d levels deep", depth+1)
-	}
-	root := levels[depth][0]
 	blob := make([]byte, nodeBytes)
-	if _, err := tx.Exec("UPDATE "+gpkgQuote(rtree+"_node")+" SET data = ? WHERE nodeno = 1", rtreeEncode(blob, uint16(depth), root.cells)); err != nil {
-		return fmt.Errorf("writing the spatial index root: %w", err)
-	}
-	q := func(suffix string) string { return gpkgQuote(rtree + "_" + suffix) }
-	insNode := newGpkgInserter(tx, "INSERT INTO "+q("node")+" (nodeno, data) VALUES ", 2, gpkgRowsPerInsert)
-	insNode.noun = "spatial index nodes"
-	defer insNode.close()
-	insParent := newGpkgInserter(tx, "INSERT INTO "+q("parent")+" (nodeno, parentnode) VALUES ", 2, rtreeRowsPerInsert)
-	insParent.noun = "spatial index parents"
-	defer insParent.close()
-	var blobs []byte // the pending nodes' data, end to end
+	row := make([]sqliteValue, 2) // nodeno is the rowid: NULL in the record
 	for l := depth; l >= 0; l-- {
 		for _, n := range levels[l] {
-			if l < depth {
-				if insNode.pending == 0 {
-					blobs = blobs[:0]
-				}
-				start := len(blobs)
-				blobs = append(blobs, make([]byte, nodeBytes)...)
-				insNode.setInt(0, n.no)
-				insNode.setBlob(1, rtreeEncode(blobs[start:len(blobs):len(blobs)], 0, n.cells))
-				if err := insNode.rowDone(); err != nil {
-					return fmt.Errorf("spatial index node %d: %w", n.no, err)
-				}
+			d := uint16(0)
+			if l == depth {
+				d = uint16(depth)
 			}
-			if l == 0 {
-				continue
-			}
-			for _, c := range n.cells {
-				insParent.setInt(0, c.id)
-				insParent.setInt(1, n.no)
-				if err := insParent.rowDone(); err != nil {
-					return fmt.Errorf("spatial index node %d: %w", c.id, err)
-				}
+			row[1] = sqliteValue{kind: sqliteBlob, b: rtreeEncode(blob, d, n.cells)}
+			if err := out.appendRowID(n.no, row); err != nil {
+				return fmt.Errorf("spatial index node %d: %w", n.no, err)
 			}
 		}
 	}
-	if err := insNode.flush(); err != nil {
-		return err
-	}
-	if err := insParent.flush(); err != nil {
-		return err
-	}
-	return rtreeWriteRowids(tx, q("rowid"), levels[0])
+	return nil
 }
 
-// rtreeRowsPerInsert is how many rows of two integers one INSERT into a
-// shadow table writes at most.
-const rtreeRowsPerInsert = 500
-
-// rtreeWriteRowids maps each feature to its leaf, in fid order (so the
-// table's B-tree is appended to, never split in the middle), many rows to
-// a statement.
-func rtreeWriteRowids(tx *gpkgTx, table string, leaves []rtreeNode) error {
-	var pairs [][2]int64
-	for _, n := range leaves {
-		for _, c := range n.cells {
-			pairs = append(pairs, [2]int64{c.id, n.no})
-		}
-	}
+// rtreeAppendPairs writes pairs (rowid, value) into the empty table of an
+// INTEGER PRIMARY KEY and one integer column (the parent and rowid tables)
+// whose root page is root, sorting them by rowid first.
+func rtreeAppendPairs(tmp string, root int64, pairs [][2]int64) (err error) {
 	slices.SortFunc(pairs, func(a, b [2]int64) int { return cmp.Compare(a[0], b[0]) })
-	ins := newGpkgInserter(tx, "INSERT INTO "+table+" (rowid, nodeno) VALUES ", 2, rtreeRowsPerInsert)
-	ins.noun = "spatial index rows"
-	defer ins.close()
+	out, err := openSQLiteTableAppender(tmp, root, nil)
+	if err != nil {
+		return err
+	}
+	defer func() {
+		if ferr := out.finish(); err == nil {
+			err = ferr
+		}
+	}()
+	row := make([]sqliteValue, 2)
 	for _, p := range pairs {
-		ins.setInt(0, p[0])
-		ins.setInt(1, p[1])
-		if err := ins.rowDone(); err != nil {
-			return err
+		row[1] = sqliteValue{kind: sqliteInt, i: p[1]}
+		if err := out.appendRowID(p[0], row); err != nil {
+			return fmt.Errorf("spatial index row %d: %w", p[0], err)
 		}
 	}
-	return ins.flush()
+	return nil
 }
 
 // rtreeEncode writes a node into blob (all of it: unused cells are zero)

@@ -93,6 +93,49 @@ func TestGeoPackageRtreePacked(t *testing.T) {
 	}
 }
 
+// A layer none of whose rows has a geometry gets the empty R*Tree SQLite
+// itself would hold: node 1 alone, with no cells, which rtreecheck()
+// accepts and a window query answers with nothing, and to which SQLite's
+// R*Tree code adds a box.
+func TestGeoPackageRtreeEmpty(t *testing.T) {
+	l := &Layer{Name: "mains", Columns: []Column{{Name: "k", Kind: Integer}}}
+	for i := range 3 {
+		l.Rows = append(l.Rows, Row{Values: []any{i}})
+	}
+	path := filepath.Join(t.TempDir(), "empty.gpkg")
+	if err := WriteGeoPackage(path, gpkgSRS2229(t), l); err != nil {
+		t.Fatal(err)
+	}
+	db, err := sql.Open("sqlite", "file:"+path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	var check string
+	var nodes, cells int
+	if err := db.QueryRow("SELECT rtreecheck('rtree_mains_geom')").Scan(&check); err != nil || check != "ok" {
+		t.Fatalf("rtreecheck: %q, %v", check, err)
+	}
+	if err := db.QueryRow("SELECT count(*) FROM rtree_mains_geom_node").Scan(&nodes); err != nil || nodes != 1 {
+		t.Fatalf("%d nodes (%v), want the root alone", nodes, err)
+	}
+	if err := db.QueryRow("SELECT count(*) FROM rtree_mains_geom").Scan(&cells); err != nil || cells != 0 {
+		t.Fatalf("%d index rows (%v), want 0", cells, err)
+	}
+	// SQLite's R*Tree code adds to the tree it finds (the triggers that do
+	// so on an edit call ST_ functions only GeoPackage readers provide).
+	if _, err := db.Exec(`INSERT INTO rtree_mains_geom VALUES (4, 6599999, 6600001, 1839999, 1840001)`); err != nil {
+		t.Fatal(err)
+	}
+	var id int64
+	if err := db.QueryRow("SELECT id FROM rtree_mains_geom WHERE minx <= 6600000 AND maxx >= 6600000").Scan(&id); err != nil || id != 4 {
+		t.Fatalf("the inserted box: id %d, %v; want 4", id, err)
+	}
+	if err := db.QueryRow("SELECT rtreecheck('rtree_mains_geom')").Scan(&check); err != nil || check != "ok" {
+		t.Fatalf("rtreecheck after the insert: %q, %v", check, err)
+	}
+}
+
 // The index's boxes hold their features': each bound is rounded outwards to
 // the nearest float32 (SQLite's rtreeValueDown and rtreeValueUp), and the
 // float32 on the other side of it would no longer hold the value.

@@ -1005,11 +1005,11 @@ func TestGeoPackageRound(t *testing.T) {
 	}
 }
 
-// The rows go to SQLite many to a statement (gpkgInserter): a layer of
-// one row short of a full statement, exactly one, one more, and two, and
-// a table so wide (600 columns) that SQLite's 32,766 parameters cap a
-// statement at 54 rows, come back from the reader row for row, with fids
-// 1, 2, ... in order. The finished file is in SQLite's default rollback
+// Layers of 63, 64, 65 and 128 rows (once the sizes of the batched
+// INSERTs this writer used, each filling several B-tree leaves now that
+// the rows are written as pages) and a table so wide (600 columns) that
+// every row overflows its leaf come back from the reader row for row, with
+// fids 1, 2, ... in order. The finished file is in SQLite's default rollback
 // journal mode, "delete" (the build's journal_mode = MEMORY lasts only as
 // long as its connection; sqlite.org/pragma.html#pragma_journal_mode),
 // its header says so (bytes 18–19 are 1, not 2 for WAL;

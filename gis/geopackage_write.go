@@ -1,7 +1,6 @@
 package gis
 
 import (
-	"cmp"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -306,15 +305,18 @@ func gpkgSyncFile(name string) error {
 // (sqliteTableAppender); and SQLite, opening it again, writes each table's
 // gpkg_contents and gpkg_geometry_columns rows and its spatial index.
 func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkgPlan) error {
-	roots, err := gpkgCreate(tmp, srsRows, plans)
+	tables, err := gpkgCreate(tmp, srsRows, plans)
 	if err != nil {
 		return err
 	}
 	filled := make([]gpkgFeatures, len(plans))
 	for k, p := range plans {
 		filled[k] = gpkgFeatures{file: file, srsID: srsID, plan: p}
-		if err := filled[k].fill(tmp, roots[k]); err != nil {
+		if err := filled[k].fill(tmp, tables[k].features); err != nil {
 			return err
+		}
+		if err := gpkgFillRtree(tmp, tables[k].rtree, filled[k].boxes, filled[k].has); err != nil {
+			return fmt.Errorf("table %q: %w", p.layer.Name, err)
 		}
 	}
 	return gpkgSQL(tmp, false, func(tx *gpkgTx) error {
@@ -327,23 +329,33 @@ func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkg
 	})
 }
 
+// gpkgTables are the root pages of a feature table and of its R-tree's
+// tables, all empty.
+type gpkgTables struct {
+	features int64
+	rtree    gpkgRtreeTables
+}
+
 // gpkgCreate makes the GeoPackage tables and each plan's empty feature
-// table in tmp and returns the feature tables' root pages.
-func gpkgCreate(tmp string, srsRows []gpkgSRSRow, plans []gpkgPlan) ([]int64, error) {
-	roots := make([]int64, len(plans))
+// table and R-tree, and returns their root pages.
+func gpkgCreate(tmp string, srsRows []gpkgSRSRow, plans []gpkgPlan) ([]gpkgTables, error) {
+	tables := make([]gpkgTables, len(plans))
 	err := gpkgSQL(tmp, true, func(tx *gpkgTx) error {
 		if err := gpkgWriteCore(tx, srsRows); err != nil {
 			return err
 		}
 		for k, p := range plans {
 			var err error
-			if roots[k], err = gpkgCreateTable(tx, p); err != nil {
+			if tables[k].features, err = gpkgCreateTable(tx, p); err != nil {
 				return err
+			}
+			if tables[k].rtree, err = gpkgCreateRtree(tx, gpkgRtreeName(p.layer.Name)); err != nil {
+				return fmt.Errorf("table %q: %w", p.layer.Name, err)
 			}
 		}
 		return nil
 	})
-	return roots, err
+	return tables, err
 }
 
 // gpkgSQL runs build in one transaction on a direct connection to the
@@ -470,7 +482,7 @@ func gpkgIndexTable(tx *gpkgTx, w *gpkgFeatures) error {
 		l.Name, gpkgGeomColumn, p.geomType, w.srsID); err != nil {
 		return fmt.Errorf("table %q: gpkg_geometry_columns: %w", l.Name, err)
 	}
-	return gpkgWriteRtree(tx, l.Name, w.boxes, w.has)
+	return gpkgWriteRtree(tx, l.Name)
 }
 
 // gpkgCheckFids checks, through SQLite, that the table holds n rows keyed
@@ -605,15 +617,6 @@ func (w *gpkgFeatures) cell(rd *RowReader, i, j int, c Column) error {
 	return nil
 }
 
-// gpkgRowsPerInsert is how many rows one INSERT statement writes at most:
-// one statement per row spent as long in preparing, stepping and resetting
-// the statement as in storing the row. SQLite takes at most 32,766
-// parameters a statement (SQLITE_MAX_VARIABLE_NUMBER since 3.32.0).
-const (
-	gpkgRowsPerInsert = 64
-	gpkgMaxParameters = 32_766
-)
-
 // gpkgTx is the transaction a GeoPackage is built in, on its connection.
 type gpkgTx struct {
 	c *sqliteConn
@@ -630,131 +633,18 @@ func (tx *gpkgTx) queryInt64(query string) (v int64, null bool, err error) {
 	return tx.c.queryInt64(query)
 }
 
-// gpkgInserter writes the rows of one table several to a statement, in
-// row order: set each column of a row, then rowDone; flush at the end for
-// the rows left over. Full statements re-run one statement prepared once,
-// with the argument slice reused from one statement to the next.
-type gpkgInserter struct {
-	tx      *gpkgTx
-	head    string        // "INSERT INTO t (columns) VALUES "
-	columns int           // values per row
-	per     int           // rows of a full statement
-	args    []sqliteValue // per rows of values
-	pending int           // rows in args
-	written int           // rows written before them
-	full    *sqliteStmt
-	noun    string // what the rows are, for errors; "features" if empty
-}
+// gpkgRtreeName is the R-tree of a table's geometry column (OGC 12-128
+// Annex F.3: rtree_<t>_<c>).
+func gpkgRtreeName(table string) string { return "rtree_" + table + "_" + gpkgGeomColumn }
 
-// newGpkgInserter writes rows of columns values with head, up to
-// rowsPerStatement rows (and gpkgMaxParameters values) a statement.
-func newGpkgInserter(tx *gpkgTx, head string, columns, rowsPerStatement int) *gpkgInserter {
-	per := max(1, min(rowsPerStatement, gpkgMaxParameters/columns))
-	return &gpkgInserter{tx: tx, head: head, columns: columns, per: per, args: make([]sqliteValue, per*columns)}
-}
-
-// set stores the value of column j of the pending row. Every column of a
-// row must be set.
-func (in *gpkgInserter) set(j int, v sqliteValue) { in.args[in.pending*in.columns+j] = v }
-
-// setNull, setInt, setFloat, setText and setBlob store the value of
-// column j of the pending row, unboxed.
-func (in *gpkgInserter) setNull(j int) { in.args[in.pending*in.columns+j] = sqliteValue{} }
-
-func (in *gpkgInserter) setInt(j int, v int64) {
-	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteInt, i: v}
-}
-
-func (in *gpkgInserter) setFloat(j int, v float64) {
-	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteFloat, f: v}
-}
-
-func (in *gpkgInserter) setText(j int, v string) {
-	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteText, s: v}
-}
-
-// setBlob stores b, or NULL for a nil b.
-func (in *gpkgInserter) setBlob(j int, b []byte) {
-	if b == nil {
-		in.setNull(j)
-		return
-	}
-	in.args[in.pending*in.columns+j] = sqliteValue{kind: sqliteBlob, b: b}
-}
-
-// statement is the INSERT of rows rows.
-func (in *gpkgInserter) statement(rows int) string {
-	row := "(" + strings.TrimSuffix(strings.Repeat("?, ", in.columns), ", ") + ")"
-	return in.head + strings.TrimSuffix(strings.Repeat(row+", ", rows), ", ")
-}
-
-// rowDone counts the row just set and writes the pending rows once they
-// fill a statement.
-func (in *gpkgInserter) rowDone() error {
-	in.pending++
-	if in.pending < in.per {
-		return nil
-	}
-	if in.full == nil {
-		st, err := in.tx.c.prepare(in.statement(in.per))
-		if err != nil {
-			return in.done(err)
-		}
-		in.full = st
-	}
-	return in.done(in.full.execValues(in.args))
-}
-
-// flush writes the rows that did not fill a statement.
-func (in *gpkgInserter) flush() error {
-	if in.pending == 0 {
-		return nil
-	}
-	st, err := in.tx.c.prepare(in.statement(in.pending))
-	if err != nil {
-		return in.done(err)
-	}
-	err = st.execValues(in.args[:in.pending*in.columns])
-	if cerr := st.close(); err == nil {
-		err = cerr
-	}
-	return in.done(err)
-}
-
-// done empties the pending rows once written; an error names their
-// numbers (1-based; for features, the fids).
-func (in *gpkgInserter) done(err error) error {
-	if err != nil {
-		noun := cmp.Or(in.noun, "features")
-		return fmt.Errorf("writing %s %d–%d: %w", noun, in.written+1, in.written+in.pending, err)
-	}
-	in.written += in.pending
-	in.pending = 0
-	return nil
-}
-
-func (in *gpkgInserter) close() {
-	if in.full != nil {
-		in.full.close()
-		in.full = nil
-	}
-}
-
-// gpkgWriteRtree creates the R-tree index of a table after its bulk load:
-// the extension row, the virtual table packed with each row's envelope
-// (gpkgLoadRtree), and then the triggers that keep it current when other
-// programs edit the file.
-func gpkgWriteRtree(tx *gpkgTx, table string, boxes []orb.Bound, has []bool) error {
-	rtree := "rtree_" + table + "_" + gpkgGeomColumn
+// gpkgWriteRtree completes the R-tree index of a table, created and filled
+// before (gpkgCreateRtree, gpkgFillRtree): the extension row, and the
+// triggers that keep it current when other programs edit the file.
+func gpkgWriteRtree(tx *gpkgTx, table string) error {
+	rtree := gpkgRtreeName(table)
 	if _, err := tx.Exec(`INSERT INTO gpkg_extensions (table_name, column_name, extension_name, definition, scope) VALUES (?, ?, 'gpkg_rtree_index', ?, 'write-only')`,
 		table, gpkgGeomColumn, gpkgRtreeDefinition); err != nil {
 		return fmt.Errorf("table %q: gpkg_extensions: %w", table, err)
-	}
-	if _, err := tx.Exec("CREATE VIRTUAL TABLE " + gpkgQuote(rtree) + " USING rtree(id, minx, maxx, miny, maxy)"); err != nil {
-		return fmt.Errorf("table %q: creating the spatial index: %w", table, err)
-	}
-	if err := gpkgLoadRtree(tx, rtree, boxes, has); err != nil {
-		return fmt.Errorf("table %q: %w", table, err)
 	}
 	rep := strings.NewReplacer("<t>", gpkgQuote(table), "<c>", gpkgQuote(gpkgGeomColumn), "<i>", gpkgQuote(gpkgFidColumn), "<r>", gpkgQuote(rtree))
 	for _, trig := range gpkgRtreeTriggers {

@@ -14,7 +14,8 @@ import (
 // file by writing the table's B-tree pages itself, in SQLite's file format
 // (sqlite.org/fileformat2.html, "Database File Format": §1.3 the header,
 // §1.6 B-tree pages, §1.7 cell payload overflow, §2.1 the record format).
-// Rows get the rowids 1, 2, … in the order they are appended; the leaf
+// Rows get the rowids 1, 2, … in the order they are appended, or rowids
+// of the caller's in increasing order (appendRowID); the leaf
 // pages and any overflow pages are appended to the file as they fill, the
 // interior pages at the end, and the top page of the tree is written over
 // the table's root page, which SQLite made as an empty leaf when it
@@ -129,9 +130,18 @@ func (a *sqliteTableAppender) readHeader(root int64) error {
 }
 
 // appendRow appends one row of vals, column by column as in the table's
-// declaration (NULL for an INTEGER PRIMARY KEY, which is the rowid).
+// declaration (NULL for an INTEGER PRIMARY KEY, which is the rowid), with
+// the rowid after the last one's.
 func (a *sqliteTableAppender) appendRow(vals []sqliteValue) error {
-	rowid := a.rowid + 1
+	return a.appendRowID(a.rowid+1, vals)
+}
+
+// appendRowID appends one row of vals with the given rowid, which must be
+// above the last row's (rows are appended in rowid order) and positive.
+func (a *sqliteTableAppender) appendRowID(rowid int64, vals []sqliteValue) error {
+	if rowid <= a.rowid || rowid <= 0 {
+		return fmt.Errorf("rowid %d after rowid %d: rows must be appended in increasing rowid order, from 1", rowid, a.rowid)
+	}
 	a.record = appendRecord(a.record[:0], vals, a.real, a.format4)
 	u := a.pageSize
 	p := len(a.record)

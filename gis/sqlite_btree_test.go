@@ -155,6 +155,78 @@ func TestSQLiteTableAppender(t *testing.T) {
 	}
 }
 
+// Rows appended with rowids of the caller's, with gaps and rowids needing
+// every varint length up to nine bytes (SQLite's rowids are any positive
+// int64), read back as SQLite stores the same rows inserted with those
+// rowids, and SQLite's integrity_check passes; a rowid not above the last
+// one's is refused, leaving the rows before it.
+func TestSQLiteTableAppenderRowIDs(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "ids.sqlite")
+	db, err := sql.Open("sqlite", "file:"+path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	for _, q := range []string{"CREATE TABLE t (id INTEGER PRIMARY KEY, n)", "CREATE TABLE u (id INTEGER PRIMARY KEY, n)"} {
+		if _, err := db.Exec(q); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var ids []int64
+	for i := int64(1); i < 3000; i++ {
+		ids = append(ids, i*i*i*i*i) // up to about 2.4e17: 1 to 9-byte varints
+	}
+	ids = append(ids, math.MaxInt64)
+	tx, err := db.Begin()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, id := range ids {
+		if _, err := tx.Exec("INSERT INTO u (id, n) VALUES (?, ?)", id, id%1000); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := tx.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	var root int64
+	if err := db.QueryRow("SELECT rootpage FROM sqlite_schema WHERE name = 't'").Scan(&root); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	a, err := openSQLiteTableAppender(path, root, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, id := range ids {
+		if err := a.appendRowID(id, []sqliteValue{{}, {kind: sqliteInt, i: id % 1000}}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := a.appendRowID(math.MaxInt64, []sqliteValue{{}, {kind: sqliteInt, i: 1}}); err == nil {
+		t.Error("a repeated rowid was taken")
+	}
+	if err := a.finish(); err != nil {
+		t.Fatal(err)
+	}
+	db, err = sql.Open("sqlite", "file:"+path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	var check string
+	if err := db.QueryRow("PRAGMA integrity_check").Scan(&check); err != nil || check != "ok" {
+		t.Fatalf("integrity_check: %q %v", check, err)
+	}
+	var nt, same int
+	if err := db.QueryRow("SELECT (SELECT count(*) FROM t), (SELECT count(*) FROM t JOIN u USING (id) WHERE t.n IS u.n)").Scan(&nt, &same); err != nil {
+		t.Fatal(err)
+	}
+	if nt != len(ids) || same != len(ids) {
+		t.Fatalf("t has %d rows, %d of them as in u; want %d", nt, same, len(ids))
+	}
+}
+
 // SQLite's varint (sqlite.org/fileformat2.html §1.6): 0x7f is one byte,
 // 0x80 two (0x81 0x00), 2^56 − 1 eight, and anything wider nine with the
 // last byte holding 8 bits (the first eight hold bits 57–63, 50–56, …, 8–14); sqliteVarintLen agrees with the encoding.
