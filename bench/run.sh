@@ -8,6 +8,7 @@
 #   bench/run.sh [N]           e.g. bench/run.sh 100000
 #   BENCH_DIR=/tmp/b bench/run.sh   keep the town and outputs in /tmp/b
 #   BENCH_DIR=/tmp/b BENCH_KEEP_TOWN=1 bench/run.sh   re-run on the town already there
+#   BENCH_ROUNDS=5 bench/run.sh   five rounds of the run and the copy; the median ratio
 #
 # The run is the peak-hour evaluation with all outputs: the config is the
 # town's own with the fire-flow sweep and the upsizing loop turned off
@@ -49,19 +50,39 @@ if [ "${BENCH_FULL:-0}" != 1 ]; then
 	echo "config: $config (fire-flow sweep and upsizing loop off; BENCH_FULL=1 keeps them)"
 fi
 
-# %e wall seconds, %M peak resident set in KiB (GNU time).
-/usr/bin/time -f "%e %M" -o "$work/time.txt" \
-	"$work/headroom" run --config "$config" --out "$work/out" "$@" >"$work/summary.txt" 2>"$work/stages.txt"
-sed 's/^headroom: /  /' "$work/stages.txt"
-read -r wall peak_kib <"$work/time.txt"
-awk -v w="$wall" -v k="$peak_kib" 'BEGIN { printf "headroom run: %s s wall, %.0f MiB peak resident\n", w, k / 1024 }'
+# One round is a headroom run and, where GDAL is installed, the ogr2ogr
+# copy right after it. On a shared machine whose speed drifts over minutes
+# (seen here: the same run 32 to 56 s within the hour) one pair says
+# little; BENCH_ROUNDS=N runs N rounds back to back and prints each
+# round's ratio and the median.
+rounds=${BENCH_ROUNDS:-1}
+ratios=()
+for ((round = 1; round <= rounds; round++)); do
+	[ "$rounds" -gt 1 ] && echo "round $round of $rounds"
+	rm -rf "$work/out"
+	# %e wall seconds, %M peak resident set in KiB, %U and %S CPU seconds in
+	# user and kernel mode (GNU time).
+	/usr/bin/time -f "%e %M %U %S" -o "$work/time.txt" \
+		"$work/headroom" run --config "$config" --out "$work/out" "$@" >"$work/summary.txt" 2>"$work/stages.txt"
+	sed 's/^headroom: /  /' "$work/stages.txt"
+	read -r wall peak_kib user sys <"$work/time.txt"
+	awk -v w="$wall" -v k="$peak_kib" -v u="$user" -v s="$sys" \
+		'BEGIN { printf "headroom run: %s s wall, %.0f MiB peak resident, %.1f s CPU (%s user, %s kernel)\n", w, k / 1024, u + s, u, s }'
 
-if command -v ogr2ogr >/dev/null 2>&1; then
-	rm -f "$work/copy.geojson"
-	/usr/bin/time -f "%e" -o "$work/copy-time.txt" ogr2ogr -f GeoJSON "$work/copy.geojson" "$pipes"
-	copy=$(cat "$work/copy-time.txt")
-	awk -v w="$wall" -v c="$copy" 'BEGIN { printf "ogr2ogr GeoJSON copy of the pipe layer: %s s; ratio headroom / copy = %.2f\n", c, w / c }'
-else
-	echo "ogr2ogr not installed (gdal-bin): no ratio"
+	if command -v ogr2ogr >/dev/null 2>&1; then
+		rm -f "$work/copy.geojson"
+		/usr/bin/time -f "%e" -o "$work/copy-time.txt" ogr2ogr -f GeoJSON "$work/copy.geojson" "$pipes"
+		copy=$(cat "$work/copy-time.txt")
+		ratio=$(awk -v w="$wall" -v c="$copy" 'BEGIN { printf "%.2f", w / c }')
+		ratios+=("$ratio")
+		echo "ogr2ogr GeoJSON copy of the pipe layer: $copy s; ratio headroom / copy = $ratio"
+	else
+		echo "ogr2ogr not installed (gdal-bin): no ratio"
+	fi
+done
+if [ "${#ratios[@]}" -gt 1 ]; then
+	printf '%s\n' "${ratios[@]}" | sort -n | awk '{ r[NR] = $1 } END {
+		m = (NR % 2) ? r[(NR + 1) / 2] : (r[NR / 2] + r[NR / 2 + 1]) / 2
+		printf "ratios over %d rounds: %s to %s, median %.2f\n", NR, r[1], r[NR], m }'
 fi
 echo "outputs and the run summary are in $work"
