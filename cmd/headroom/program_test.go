@@ -3,6 +3,7 @@ package main
 import (
 	"math"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strconv"
 	"strings"
@@ -211,5 +212,50 @@ func TestProgramMustDo(t *testing.T) {
 	k := r.prog.projectOf[slices.IndexFunc(r.pipes, func(p gis.Pipe) bool { return p.ID == id })]
 	if pr := r.prog.projects[k]; !pr.mustDo || pr.year != r.prog.plan.Years[0].Year {
 		t.Errorf("must-do pipe %s: project %s must do %v, year %d; want year %d", id, pr.id, pr.mustDo, pr.year, r.prog.plan.Years[0].Year)
+	}
+}
+
+// The break layer read and joined on its own goroutine while the network
+// is solved (progStartBreaks) gives what reading it when the program
+// starts gives: the same breaks, the same main for each, the same tally and
+// rates, and the same problems in the same order. .ci/run runs it under
+// the race detector, which checks that the join only reads what the
+// solving stages leave alone.
+func TestBreaksReadAheadAsInPlace(t *testing.T) {
+	cfg, err := loadConfig(atomicDemo(t, 400, "17"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	in := &inputs{cfg: cfg, title: cfg.file}
+	r, err := analyse(in)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.breaksAhead == nil {
+		t.Fatal("the demo town has a break layer, but nothing read it ahead")
+	}
+	breakProblems := func(probs []gis.Problem) []gis.Problem {
+		var out []gis.Problem
+		for _, p := range probs {
+			if p.File == filepath.Base(cfg.Breaks.Path) {
+				out = append(out, p)
+			}
+		}
+		return out
+	}
+	inPlace := *r
+	inPlace.breaksAhead, inPlace.problems = nil, nil
+	if err := inPlace.progRun(in); err != nil {
+		t.Fatal(err)
+	}
+	a, b := r.prog, inPlace.prog
+	if len(a.breaks) == 0 || !reflect.DeepEqual(a.breaks, b.breaks) || !reflect.DeepEqual(a.breakMatch, b.breakMatch) {
+		t.Fatalf("%d breaks read ahead, %d in place; the breaks or their mains differ", len(a.breaks), len(b.breaks))
+	}
+	if !reflect.DeepEqual(a.tally, b.tally) || !reflect.DeepEqual(a.pipeBreaks, b.pipeBreaks) {
+		t.Errorf("the tally or the rates per main differ: %+v, %+v", a.tally, b.tally)
+	}
+	if pa, pb := breakProblems(r.problems), breakProblems(inPlace.problems); !reflect.DeepEqual(pa, pb) {
+		t.Errorf("%d break problems read ahead, %d in place, or in another order", len(pa), len(pb))
 	}
 }

@@ -41,25 +41,83 @@ func (r *result) progRun(in *inputs) error {
 	return r.progPlan()
 }
 
-// progReadBreaks reads the break layer, joins each break to a main and
-// counts the rates per main and per cohort.
-func (r *result) progReadBreaks(in *inputs) error {
-	cfg, p := r.cfg, r.prog
+// joined is the break layer read and joined to the mains: the breaks,
+// each one's main, the problems found on the way, in the order the reading
+// and the join found them, and the error that stopped them.
+type joined struct {
+	breaks []gis.Break
+	match  []gis.BreakMatch
+	probs  []gis.Problem
+	err    error
+}
+
+// pendingBreaks is the break layer being read and joined on another
+// goroutine; wait gives its result, as often as asked (a copy of a result
+// may run the program again).
+type pendingBreaks struct {
+	done chan struct{} // closed once j is set
+	j    joined
+}
+
+func (pb *pendingBreaks) wait() joined {
+	<-pb.done
+	return pb.j
+}
+
+// progStartBreaks reads the break layer and joins it to the mains on
+// another goroutine, which only reads the pipes (fixed once read), so that
+// the work overlaps the snapping and the solving (1M demo town: 1.4 s of
+// CPU, most of it the index of a million mains' lines). It returns nil
+// when there is no break layer. progReadBreaks takes the result, so
+// problems and errors come in the order they did when it read the layer
+// itself.
+func (r *result) progStartBreaks(in *inputs) *pendingBreaks {
+	cfg := r.cfg
 	if cfg.Breaks.Path == "" && in.breaks == nil {
 		return nil
 	}
+	pb := &pendingBreaks{done: make(chan struct{})}
+	go func() {
+		pb.j = r.progJoinBreaks(in)
+		close(pb.done)
+	}()
+	return pb
+}
+
+// progJoinBreaks reads the break layer and joins each break to a main.
+func (r *result) progJoinBreaks(in *inputs) joined {
+	cfg := r.cfg
 	c, err := openLayer(in, layerConfig{"breaks", cfg.Breaks.LayerFile}, in.breaks)
 	if err != nil {
-		return err
+		return joined{err: err}
 	}
 	f := cfg.Breaks.Fields
 	bs, probs, err := gis.BreaksFromCollection(c.File, c.LonLat(), gis.BreakSchema{ID: f.ID, Date: f.Date, PipeID: f.PipeID, AnalysisYear: cfg.AnalysisYear})
-	r.problems = append(r.problems, probs...)
 	if err != nil {
-		return err
+		return joined{probs: probs, err: err}
 	}
-	match, probs := gis.JoinBreaks(r.pipes, bs, hydraulics.Length(cfg.si(cfg.progBreakDistance())))
-	r.problems = append(r.problems, probs...)
+	match, more := gis.JoinBreaks(r.pipes, bs, hydraulics.Length(cfg.si(cfg.progBreakDistance())))
+	return joined{breaks: bs, match: match, probs: append(probs, more...)}
+}
+
+// progReadBreaks takes the break layer read and joined (progStartBreaks,
+// or here when nothing started it) and counts the rates per main and per
+// cohort.
+func (r *result) progReadBreaks(in *inputs) error {
+	cfg, p := r.cfg, r.prog
+	ahead := r.breaksAhead
+	if ahead == nil {
+		ahead = r.progStartBreaks(in)
+	}
+	if ahead == nil {
+		return nil
+	}
+	j := ahead.wait()
+	r.problems = append(r.problems, j.probs...)
+	if j.err != nil {
+		return j.err
+	}
+	bs, match := j.breaks, j.match
 	p.breaks, p.breakMatch = bs, match
 	var records []scoring.BreakRecord
 	lo, hi := math.Inf(1), math.Inf(-1)
