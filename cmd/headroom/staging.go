@@ -255,15 +255,17 @@ func writeStaged(stage, dir string, outs []output) error {
 }
 
 // longestFirst names the outputs that take longest to write, longest
-// first, as measured on the 1,000,000-segment demo town on two cores
-// (pipes.gpkg 8.0 s, pipes.geojson 5.2, ranked.xlsx 4.4, ranked.csv 2.7,
-// report.html 2.5, nodes.gpkg 2.2, nodes.geojson 1.1; the shapefiles, not
+// first, as measured on the 1,000,000-segment demo town on two cores on
+// 2026-12-03 (two runs: pipes.geojson 6.4-6.9 s, ranked.xlsx 4.1-5.9,
+// pipes.gpkg 4.3-4.5, ranked.csv 2.7-4.1, report.html 2.9-3.5,
+// nodes.geojson 1.3-1.6, nodes.gpkg 0.9-1.5; the shapefiles, not
 // measured, beside their GeoJSON). Starting the longest jobs first
 // (Graham's longest-processing-time rule, 1969) keeps a long one from
 // starting last while the other slots sit idle: in the order outs are
-// listed in, the writing stage took 14.3 s.
-var longestFirst = []string{"pipes.gpkg", "pipes.geojson", "pipes.shp", "ranked.xlsx", "ranked.csv",
-	"report.html", "nodes.gpkg", "nodes.geojson", "nodes.shp"}
+// listed in, the writing stage took 14.3 s (measured before the writers of
+// the GeoPackages and the workbook were made faster).
+var longestFirst = []string{"pipes.geojson", "pipes.shp", "ranked.xlsx", "pipes.gpkg", "ranked.csv",
+	"report.html", "nodes.geojson", "nodes.shp", "nodes.gpkg"}
 
 // startOrder returns the indices of outs in the order writeStaged starts
 // them: those named in longestFirst in its order, then the rest in the

@@ -17,7 +17,7 @@ func TestStartOrderLongestFirst(t *testing.T) {
 	for _, k := range startOrder(outs) {
 		got = append(got, outs[k].name)
 	}
-	want := []string{"pipes.gpkg", "pipes.geojson", "ranked.xlsx", "ranked.csv", "report.html", "nodes.gpkg", "nodes.geojson", "projects.csv", "plan.csv"}
+	want := []string{"pipes.geojson", "ranked.xlsx", "pipes.gpkg", "ranked.csv", "report.html", "nodes.geojson", "nodes.gpkg", "projects.csv", "plan.csv"}
 	if !slices.Equal(got, want) {
 		t.Errorf("start order %v, want %v", got, want)
 	}
