@@ -296,7 +296,11 @@ func (r *result) otherScenarios() []scenario {
 func (r *result) pipeLayer() *gis.Layer {
 	s := r.cfg.system()
 	cols := r.pipeColumns()
-	index := columnPositions(cols)
+	names := make([]string, len(cols))
+	for k, c := range cols {
+		names[k] = c.Name
+	}
+	index := newColumnLookup(names)
 	return gis.PackLayer("pipes", cols, len(r.pipes), func(i int, vals []any) orb.Geometry {
 		p := r.pipes[i]
 		r.pipeValues(i, p, s, rowValues{index: index, vals: vals})
@@ -316,13 +320,13 @@ func columnPositions(cols []gis.Column) map[string]int {
 // rowValues fills one output row by column name. A name that is not one
 // of the columns is ignored, and a column never set stays nil (a null).
 type rowValues struct {
-	index map[string]int // column name → position in vals
+	index *columnLookup // column name → position in vals
 	vals  []any
 }
 
 // set puts x in the column named name, if the row has one.
 func (v rowValues) set(name string, x any) {
-	if k, ok := v.index[name]; ok {
+	if k, ok := v.index.position(name); ok {
 		v.vals[k] = x
 	}
 }
