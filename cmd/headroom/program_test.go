@@ -1,9 +1,12 @@
 package main
 
 import (
+	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"reflect"
+	"regexp"
 	"slices"
 	"strconv"
 	"strings"
@@ -220,10 +223,63 @@ func TestProgramMustDo(t *testing.T) {
 // starts gives: the same breaks, the same main for each, the same tally and
 // rates, and the same problems in the same order. .ci/run runs it under
 // the race detector, which checks that the join only reads what the
-// solving stages leave alone.
+// stages after it leave alone. The town has a zero-length main added,
+// whose line snapping takes away, with a break by its id some way off,
+// which the join must see without its line, as the program did when it
+// read the layer itself. (A join started before snapping would not fail
+// here reliably: on a town this small snapping ends before the break
+// layer is read, and the race detector takes the file reads after the
+// stderr writes as synchronised.)
 func TestBreaksReadAheadAsInPlace(t *testing.T) {
-	cfg, err := loadConfig(atomicDemo(t, 400, "17"))
+	cfgPath := atomicDemo(t, 400, "17")
+	cfg, err := loadConfig(cfgPath)
 	if err != nil {
+		t.Fatal(err)
+	}
+	mains := cfg.path(cfg.Pipes.Path)
+	text, err := os.ReadFile(mains)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(string(text), "\n")
+	first := slices.IndexFunc(lines, func(l string) bool { return strings.HasPrefix(l, `{"type":"Feature"`) })
+	if first < 0 {
+		t.Fatal("no feature line in the demo mains")
+	}
+	// Two vertices a centimetre apart (1e-7 degree of latitude): distinct,
+	// as the reader wants, and within the snap tolerance of each other.
+	coords := regexp.MustCompile(`"coordinates":\[\[([-0-9.]+),([-0-9.]+)\].*?\]\]`)
+	m := coords.FindStringSubmatch(lines[first])
+	if m == nil {
+		t.Fatalf("no coordinates in %s", lines[first])
+	}
+	y, err := strconv.ParseFloat(m[2], 64)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stub := coords.ReplaceAllLiteralString(lines[first], fmt.Sprintf(`"coordinates":[[%s,%s],[%s,%.8f]]`, m[1], m[2], m[1], y+1e-7))
+	stub = regexp.MustCompile(`"main_no":"[^"]*"`).ReplaceAllString(stub, `"main_no":"QM-STUB"`)
+	if stub == lines[first] || !strings.Contains(stub, "QM-STUB") {
+		t.Fatalf("could not make a zero-length main from %s", lines[first])
+	}
+	lines = slices.Insert(lines, first, strings.TrimSuffix(stub, ",")+",")
+	if err := os.WriteFile(mains, []byte(strings.Join(lines, "\n")), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	// A break by the stub's id, 33 m (3e-4 degree of latitude) from it: a
+	// join that saw the stub's line would put the break that far from its
+	// main, but snapping takes the line away, and the join after snapping
+	// gives no distance.
+	breaks := cfg.path(cfg.Breaks.Path)
+	if text, err = os.ReadFile(breaks); err != nil {
+		t.Fatal(err)
+	}
+	stubBreak := fmt.Sprintf(`{"type":"Feature","geometry":{"type":"Point","coordinates":[%s,%.7f]},"properties":{"break_date":"2012-01-11","break_id":"QB-STUB","pipe_id":"QM-STUB"}},`, m[1], y+3e-4)
+	text = []byte(strings.Replace(string(text), `"features":[`+"\n", `"features":[`+"\n"+stubBreak+"\n", 1))
+	if !strings.Contains(string(text), "QB-STUB") {
+		t.Fatal("could not add a break to the demo breaks")
+	}
+	if err := os.WriteFile(breaks, text, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	in := &inputs{cfg: cfg, title: cfg.file}
@@ -233,6 +289,13 @@ func TestBreaksReadAheadAsInPlace(t *testing.T) {
 	}
 	if r.breaksAhead == nil {
 		t.Fatal("the demo town has a break layer, but nothing read it ahead")
+	}
+	if !slices.ContainsFunc(r.problems, func(p gis.Problem) bool { return p.ID == "QM-STUB" && strings.Contains(p.What, "zero-length") }) {
+		t.Fatal("the zero-length main added was not reported as one")
+	}
+	k := slices.IndexFunc(r.prog.breaks, func(b gis.Break) bool { return b.ID == "QB-STUB" })
+	if k < 0 || r.pipes[r.prog.breakMatch[k].Pipe].ID != "QM-STUB" || r.prog.breakMatch[k].Distance != 0 {
+		t.Fatalf("the break on the stub: %+v; want it on QM-STUB by id, with no distance (the stub has no line once snapped)", r.prog.breakMatch[max(k, 0)])
 	}
 	breakProblems := func(probs []gis.Problem) []gis.Problem {
 		var out []gis.Problem

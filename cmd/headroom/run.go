@@ -167,13 +167,13 @@ func analyse(in *inputs) (*result, error) {
 	}
 	reading.add(len(r.pipes) + len(r.sources) + len(r.demands) + len(r.areas) + len(r.elevations))
 	reading.end(fmt.Sprintf("%d pipes", len(r.pipes)))
-	r.breaksAhead = r.progStartBreaks(in)
 	snapping := r.progress.begin("snapping", "pipes", 0)
 	topo, probs := gis.Snap(r.pipes, hydraulics.Length(cfg.si(cfg.snapTolerance())))
 	r.topo = topo
 	snapping.add(len(r.pipes))
 	snapping.end(fmt.Sprintf("%d nodes", len(topo.Nodes)))
 	r.problems = append(r.problems, probs...)
+	r.breaksAhead = r.progStartBreaks(in) // Snap was the last to change the pipes
 
 	joining := r.progress.begin("joining", "", 0)
 	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
