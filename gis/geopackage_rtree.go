@@ -280,56 +280,42 @@ func rtreeCover(cells []rtreeCell) rtreeCell {
 // rtreeAppendNodes writes the packed levels into the empty node table
 // whose root page is root, one row (nodeno, data) a node in node-number
 // order: the root, node 1, with the tree's depth, then each level below.
-func rtreeAppendNodes(tmp string, root int64, nodeBytes int, levels [][]rtreeNode) (err error) {
-	out, err := openSQLiteTableAppender(tmp, root, nil)
-	if err != nil {
-		return err
-	}
-	defer func() {
-		if ferr := out.finish(); err == nil {
-			err = ferr
-		}
-	}()
-	depth := len(levels) - 1
-	blob := make([]byte, nodeBytes)
-	row := make([]sqliteValue, 2) // nodeno is the rowid: NULL in the record
-	for l := depth; l >= 0; l-- {
-		for _, n := range levels[l] {
-			d := uint16(0)
-			if l == depth {
-				d = uint16(depth)
-			}
-			row[1] = sqliteValue{kind: sqliteBlob, b: rtreeEncode(blob, d, n.cells)}
-			if err := out.appendRowID(n.no, row); err != nil {
-				return fmt.Errorf("spatial index node %d: %w", n.no, err)
+func rtreeAppendNodes(tmp string, root int64, nodeBytes int, levels [][]rtreeNode) error {
+	return fillSQLiteTable(tmp, root, nil, func(out *sqliteTableAppender) error {
+		depth := len(levels) - 1
+		blob := make([]byte, nodeBytes)
+		row := make([]sqliteValue, 2) // nodeno is the rowid: NULL in the record
+		for l := depth; l >= 0; l-- {
+			for _, n := range levels[l] {
+				d := uint16(0)
+				if l == depth {
+					d = uint16(depth)
+				}
+				row[1] = sqliteValue{kind: sqliteBlob, b: rtreeEncode(blob, d, n.cells)}
+				if err := out.appendRowID(n.no, row); err != nil {
+					return fmt.Errorf("spatial index node %d: %w", n.no, err)
+				}
 			}
 		}
-	}
-	return nil
+		return nil
+	})
 }
 
 // rtreeAppendPairs writes pairs (rowid, value) into the empty table of an
 // INTEGER PRIMARY KEY and one integer column (the parent and rowid tables)
 // whose root page is root, sorting them by rowid first.
-func rtreeAppendPairs(tmp string, root int64, pairs [][2]int64) (err error) {
+func rtreeAppendPairs(tmp string, root int64, pairs [][2]int64) error {
 	slices.SortFunc(pairs, func(a, b [2]int64) int { return cmp.Compare(a[0], b[0]) })
-	out, err := openSQLiteTableAppender(tmp, root, nil)
-	if err != nil {
-		return err
-	}
-	defer func() {
-		if ferr := out.finish(); err == nil {
-			err = ferr
+	return fillSQLiteTable(tmp, root, nil, func(out *sqliteTableAppender) error {
+		row := make([]sqliteValue, 2)
+		for _, p := range pairs {
+			row[1] = sqliteValue{kind: sqliteInt, i: p[1]}
+			if err := out.appendRowID(p[0], row); err != nil {
+				return fmt.Errorf("spatial index row %d: %w", p[0], err)
+			}
 		}
-	}()
-	row := make([]sqliteValue, 2)
-	for _, p := range pairs {
-		row[1] = sqliteValue{kind: sqliteInt, i: p[1]}
-		if err := out.appendRowID(p[0], row); err != nil {
-			return fmt.Errorf("spatial index row %d: %w", p[0], err)
-		}
-	}
-	return nil
+		return nil
+	})
 }
 
 // rtreeEncode writes a node into blob (all of it: unused cells are zero)

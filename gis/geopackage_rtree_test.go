@@ -47,18 +47,7 @@ func TestGeoPackageRtreePacked(t *testing.T) {
 			if err := WriteGeoPackage(path, gpkgSRS2229(t), l); err != nil {
 				t.Fatal(err)
 			}
-			db, err := sql.Open("sqlite", "file:"+path)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer db.Close()
-			var check string
-			if err := db.QueryRow("SELECT rtreecheck('rtree_mains_geom')").Scan(&check); err != nil {
-				t.Fatal(err)
-			}
-			if check != "ok" {
-				t.Fatalf("rtreecheck: %s", check)
-			}
+			db := rtreeOpenChecked(t, path, "rtree_mains_geom")
 			for q := range 40 {
 				// windows from a point to a tenth of the area, edges at a quarter foot
 				w := float64(1 + rng.IntN(30_000))
@@ -106,16 +95,9 @@ func TestGeoPackageRtreeEmpty(t *testing.T) {
 	if err := WriteGeoPackage(path, gpkgSRS2229(t), l); err != nil {
 		t.Fatal(err)
 	}
-	db, err := sql.Open("sqlite", "file:"+path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
+	db := rtreeOpenChecked(t, path, "rtree_mains_geom")
 	var check string
 	var nodes, cells int
-	if err := db.QueryRow("SELECT rtreecheck('rtree_mains_geom')").Scan(&check); err != nil || check != "ok" {
-		t.Fatalf("rtreecheck: %q, %v", check, err)
-	}
 	if err := db.QueryRow("SELECT count(*) FROM rtree_mains_geom_node").Scan(&nodes); err != nil || nodes != 1 {
 		t.Fatalf("%d nodes (%v), want the root alone", nodes, err)
 	}
@@ -169,4 +151,21 @@ func TestRtreeOrderKey(t *testing.T) {
 			t.Fatalf("keys of %v and %v compare %d, the values %d", a, b, got, want)
 		}
 	}
+}
+
+// rtreeOpenChecked opens the GeoPackage at path, closed when the test ends,
+// and fails the test unless SQLite's rtreecheck() passes on its R*Tree
+// rtree.
+func rtreeOpenChecked(t *testing.T, path, rtree string) *sql.DB {
+	t.Helper()
+	db, err := sql.Open("sqlite", "file:"+path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	var check string
+	if err := db.QueryRow("SELECT rtreecheck(?)", rtree).Scan(&check); err != nil || check != "ok" {
+		t.Fatalf("rtreecheck(%s): %q, %v", rtree, check, err)
+	}
+	return db
 }

@@ -83,6 +83,22 @@ func openSQLiteTableAppender(path string, root int64, real []bool) (*sqliteTable
 	return a, nil
 }
 
+// fillSQLiteTable opens an appender on the empty table whose root page is
+// root in the closed database file path, lets fill append the rows and
+// finishes the table, even after fill fails (the file is a temporary one
+// then, to be removed); the error is fill's, else finish's.
+func fillSQLiteTable(path string, root int64, real []bool, fill func(*sqliteTableAppender) error) error {
+	out, err := openSQLiteTableAppender(path, root, real)
+	if err != nil {
+		return err
+	}
+	err = fill(out)
+	if ferr := out.finish(); err == nil {
+		err = ferr
+	}
+	return err
+}
+
 // readHeader checks the database header and the root page (an empty table
 // leaf) and sets the page size and the first page to append.
 func (a *sqliteTableAppender) readHeader(root int64) error {

@@ -118,15 +118,8 @@ func TestSQLiteTableAppender(t *testing.T) {
 				t.Fatal(err)
 			}
 
-			db, err = sql.Open("sqlite", "file:"+path)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer db.Close()
+			db = sqliteOpenChecked(t, path)
 			var check string
-			if err := db.QueryRow("PRAGMA integrity_check").Scan(&check); err != nil || check != "ok" {
-				t.Fatalf("integrity_check: %q %v", check, err)
-			}
 			var nt, nu, differ int
 			q := `SELECT (SELECT count(*) FROM t), (SELECT count(*) FROM u),
 				(SELECT count(*) FROM t JOIN u USING (id) WHERE t.a IS NOT u.a OR t.b IS NOT u.b OR t.c IS NOT u.c OR t.d IS NOT u.d
@@ -209,15 +202,7 @@ func TestSQLiteTableAppenderRowIDs(t *testing.T) {
 	if err := a.finish(); err != nil {
 		t.Fatal(err)
 	}
-	db, err = sql.Open("sqlite", "file:"+path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer db.Close()
-	var check string
-	if err := db.QueryRow("PRAGMA integrity_check").Scan(&check); err != nil || check != "ok" {
-		t.Fatalf("integrity_check: %q %v", check, err)
-	}
+	db = sqliteOpenChecked(t, path)
 	var nt, same int
 	if err := db.QueryRow("SELECT (SELECT count(*) FROM t), (SELECT count(*) FROM t JOIN u USING (id) WHERE t.n IS u.n)").Scan(&nt, &same); err != nil {
 		t.Fatal(err)
@@ -282,4 +267,20 @@ func TestBtreeInteriorLevel(t *testing.T) {
 			}
 		}
 	}
+}
+
+// sqliteOpenChecked opens the database file at path, closed when the test
+// ends, and fails the test unless SQLite's integrity_check passes on it.
+func sqliteOpenChecked(t *testing.T, path string) *sql.DB {
+	t.Helper()
+	db, err := sql.Open("sqlite", "file:"+path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	var check string
+	if err := db.QueryRow("PRAGMA integrity_check").Scan(&check); err != nil || check != "ok" {
+		t.Fatalf("integrity_check: %q %v", check, err)
+	}
+	return db
 }
