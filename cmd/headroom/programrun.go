@@ -67,8 +67,8 @@ func (pb *pendingBreaks) wait() joined {
 // progStartBreaks reads the break layer and joins it to the mains on
 // another goroutine, so that the work overlaps the joining and the solving
 // (1M demo town: 1.4 s of CPU, most of it the index of a million mains'
-// lines). It must start after gis.Snap, which marks zero-length and
-// looped pipes unusable: from there on the pipes are only read. It returns nil
+// lines). It must start after gis.Snap, which marks zero-length and looped
+// pipes unusable: from there on the pipes are only read. It returns nil
 // when there is no break layer. progReadBreaks takes the result, so
 // problems and errors come in the order they did when it read the layer
 // itself.
