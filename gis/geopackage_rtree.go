@@ -91,10 +91,7 @@ func gpkgCreateRtree(tx *gpkgTx, rtree string) (gpkgRtreeTables, error) {
 		suffix string
 		root   *int64
 	}{{"node", &rt.node}, {"parent", &rt.parent}, {"rowid", &rt.rowid}} {
-		root, null, err := tx.queryInt64("SELECT rootpage FROM sqlite_schema WHERE type = 'table' AND name = " + gpkgLiteral(rtree+"_"+t.suffix))
-		if err == nil && null {
-			err = errors.New("no root page")
-		}
+		root, err := gpkgRootPage(tx, rtree+"_"+t.suffix)
 		if err != nil {
 			return rt, fmt.Errorf("spatial index table %s_%s: %w", rtree, t.suffix, err)
 		}

@@ -2,7 +2,6 @@ package gis
 
 import (
 	"cmp"
-	"database/sql"
 	"math"
 	"math/rand/v2"
 	"path/filepath"
@@ -47,7 +46,7 @@ func TestGeoPackageRtreePacked(t *testing.T) {
 			if err := WriteGeoPackage(path, gpkgSRS2229(t), l); err != nil {
 				t.Fatal(err)
 			}
-			db := rtreeOpenChecked(t, path, "rtree_mains_geom")
+			db := sqliteOpenChecked(t, path, "SELECT rtreecheck('rtree_mains_geom')")
 			for q := range 40 {
 				// windows from a point to a tenth of the area, edges at a quarter foot
 				w := float64(1 + rng.IntN(30_000))
@@ -95,7 +94,7 @@ func TestGeoPackageRtreeEmpty(t *testing.T) {
 	if err := WriteGeoPackage(path, gpkgSRS2229(t), l); err != nil {
 		t.Fatal(err)
 	}
-	db := rtreeOpenChecked(t, path, "rtree_mains_geom")
+	db := sqliteOpenChecked(t, path, "SELECT rtreecheck('rtree_mains_geom')")
 	var check string
 	var nodes, cells int
 	if err := db.QueryRow("SELECT count(*) FROM rtree_mains_geom_node").Scan(&nodes); err != nil || nodes != 1 {
@@ -151,21 +150,4 @@ func TestRtreeOrderKey(t *testing.T) {
 			t.Fatalf("keys of %v and %v compare %d, the values %d", a, b, got, want)
 		}
 	}
-}
-
-// rtreeOpenChecked opens the GeoPackage at path, closed when the test ends,
-// and fails the test unless SQLite's rtreecheck() passes on its R*Tree
-// rtree.
-func rtreeOpenChecked(t *testing.T, path, rtree string) *sql.DB {
-	t.Helper()
-	db, err := sql.Open("sqlite", "file:"+path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { db.Close() })
-	var check string
-	if err := db.QueryRow("SELECT rtreecheck(?)", rtree).Scan(&check); err != nil || check != "ok" {
-		t.Fatalf("rtreecheck(%s): %q, %v", rtree, check, err)
-	}
-	return db
 }

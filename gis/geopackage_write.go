@@ -299,11 +299,12 @@ func gpkgSyncFile(name string) error {
 }
 
 // gpkgBuild writes the whole GeoPackage into the empty file tmp in three
-// steps: SQLite creates the GeoPackage tables and the empty feature tables
-// in one transaction on a direct connection (sqliteConn); the feature
-// rows are then written into the closed file as B-tree pages
-// (sqliteTableAppender); and SQLite, opening it again, writes each table's
-// gpkg_contents and gpkg_geometry_columns rows and its spatial index.
+// steps: SQLite creates the GeoPackage tables, the empty feature tables
+// and their empty R-trees in one transaction on a direct connection
+// (sqliteConn); the feature rows and the packed R-trees are then written
+// into the closed file as B-tree pages (sqliteTableAppender); and SQLite,
+// opening it again, writes each table's gpkg_contents,
+// gpkg_geometry_columns and gpkg_extensions rows and its R-tree triggers.
 func gpkgBuild(tmp, file string, srsID int32, srsRows []gpkgSRSRow, plans []gpkgPlan) error {
 	tables, err := gpkgCreate(tmp, srsRows, plans)
 	if err != nil {
@@ -447,12 +448,21 @@ func gpkgCreateTable(tx *gpkgTx, p gpkgPlan) (int64, error) {
 	if _, err := tx.Exec("CREATE TABLE " + gpkgQuote(l.Name) + " (" + strings.Join(defs, ", ") + ")"); err != nil {
 		return 0, fmt.Errorf("creating table %q: %w", l.Name, err)
 	}
-	root, null, err := tx.queryInt64("SELECT rootpage FROM sqlite_schema WHERE type = 'table' AND name = " + gpkgLiteral(l.Name))
+	root, err := gpkgRootPage(tx, l.Name)
+	if err != nil {
+		return 0, fmt.Errorf("table %q: %w", l.Name, err)
+	}
+	return root, nil
+}
+
+// gpkgRootPage is the root page of the table named name.
+func gpkgRootPage(tx *gpkgTx, name string) (int64, error) {
+	root, null, err := tx.queryInt64("SELECT rootpage FROM sqlite_schema WHERE type = 'table' AND name = " + gpkgLiteral(name))
 	if err == nil && null {
 		err = errors.New("no root page")
 	}
 	if err != nil {
-		return 0, fmt.Errorf("table %q: finding its root page: %w", l.Name, err)
+		return 0, fmt.Errorf("finding its root page: %w", err)
 	}
 	return root, nil
 }

@@ -99,11 +99,7 @@ func TestSQLiteTableAppender(t *testing.T) {
 			if err := tx.Commit(); err != nil {
 				t.Fatal(err)
 			}
-			var root int64
-			if err := db.QueryRow("SELECT rootpage FROM sqlite_schema WHERE name = 't'").Scan(&root); err != nil {
-				t.Fatal(err)
-			}
-			db.Close()
+			root := sqliteRootPageClosing(t, db, "t")
 
 			a, err := openSQLiteTableAppender(path, root, []bool{false, false, true, false, false})
 			if err != nil {
@@ -118,7 +114,7 @@ func TestSQLiteTableAppender(t *testing.T) {
 				t.Fatal(err)
 			}
 
-			db = sqliteOpenChecked(t, path)
+			db = sqliteOpenChecked(t, path, "PRAGMA integrity_check")
 			var check string
 			var nt, nu, differ int
 			q := `SELECT (SELECT count(*) FROM t), (SELECT count(*) FROM u),
@@ -182,11 +178,7 @@ func TestSQLiteTableAppenderRowIDs(t *testing.T) {
 	if err := tx.Commit(); err != nil {
 		t.Fatal(err)
 	}
-	var root int64
-	if err := db.QueryRow("SELECT rootpage FROM sqlite_schema WHERE name = 't'").Scan(&root); err != nil {
-		t.Fatal(err)
-	}
-	db.Close()
+	root := sqliteRootPageClosing(t, db, "t")
 	a, err := openSQLiteTableAppender(path, root, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -202,7 +194,7 @@ func TestSQLiteTableAppenderRowIDs(t *testing.T) {
 	if err := a.finish(); err != nil {
 		t.Fatal(err)
 	}
-	db = sqliteOpenChecked(t, path)
+	db = sqliteOpenChecked(t, path, "PRAGMA integrity_check")
 	var nt, same int
 	if err := db.QueryRow("SELECT (SELECT count(*) FROM t), (SELECT count(*) FROM t JOIN u USING (id) WHERE t.n IS u.n)").Scan(&nt, &same); err != nil {
 		t.Fatal(err)
@@ -270,17 +262,32 @@ func TestBtreeInteriorLevel(t *testing.T) {
 }
 
 // sqliteOpenChecked opens the database file at path, closed when the test
-// ends, and fails the test unless SQLite's integrity_check passes on it.
-func sqliteOpenChecked(t *testing.T, path string) *sql.DB {
+// ends, and fails the test unless SQLite answers the check query (PRAGMA
+// integrity_check, or rtreecheck() of an R*Tree) with "ok".
+func sqliteOpenChecked(t *testing.T, path, check string) *sql.DB {
 	t.Helper()
 	db, err := sql.Open("sqlite", "file:"+path)
 	if err != nil {
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { db.Close() })
-	var check string
-	if err := db.QueryRow("PRAGMA integrity_check").Scan(&check); err != nil || check != "ok" {
-		t.Fatalf("integrity_check: %q %v", check, err)
+	var got string
+	if err := db.QueryRow(check).Scan(&got); err != nil || got != "ok" {
+		t.Fatalf("%s: %q %v", check, got, err)
 	}
 	return db
+}
+
+// sqliteRootPageClosing reads the root page of table name and closes db,
+// so that an appender can fill the table in the file.
+func sqliteRootPageClosing(t *testing.T, db *sql.DB, name string) int64 {
+	t.Helper()
+	var root int64
+	if err := db.QueryRow("SELECT rootpage FROM sqlite_schema WHERE name = ?", name).Scan(&root); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	return root
 }

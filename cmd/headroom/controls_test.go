@@ -274,7 +274,10 @@ func TestCtlCheckValve(t *testing.T) {
 			})
 			q := ctlFlowGPM(t, r, "CV-1")
 			layer := r.pipeLayer()
-			status := columnPositions(layer.Columns)["status"]
+			status, ok := columnLookupOf(layer.Columns).position("status")
+			if !ok {
+				t.Fatal("the pipe layer has no status column")
+			}
 			for i, p := range r.pipes {
 				if p.ID != "CV-1" {
 					continue

@@ -296,11 +296,7 @@ func (r *result) otherScenarios() []scenario {
 func (r *result) pipeLayer() *gis.Layer {
 	s := r.cfg.system()
 	cols := r.pipeColumns()
-	names := make([]string, len(cols))
-	for k, c := range cols {
-		names[k] = c.Name
-	}
-	index := newColumnLookup(names)
+	index := columnLookupOf(cols)
 	return gis.PackLayer("pipes", cols, len(r.pipes), func(i int, vals []any) orb.Geometry {
 		p := r.pipes[i]
 		r.pipeValues(i, p, s, rowValues{index: index, vals: vals})
@@ -308,13 +304,13 @@ func (r *result) pipeLayer() *gis.Layer {
 	})
 }
 
-// columnPositions maps each column's name to its position.
-func columnPositions(cols []gis.Column) map[string]int {
-	index := make(map[string]int, len(cols))
+// columnLookupOf finds each of cols by its name.
+func columnLookupOf(cols []gis.Column) *columnLookup {
+	names := make([]string, len(cols))
 	for k, c := range cols {
-		index[c.Name] = k
+		names[k] = c.Name
 	}
-	return index
+	return newColumnLookup(names)
 }
 
 // rowValues fills one output row by column name. A name that is not one
