@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 
 	"github.com/paulmach/orb/geojson"
 
@@ -390,7 +391,7 @@ func (r *result) solveScenarios() error {
 		for k, n := range r.net.Nodes {
 			demand[k] = hydraulics.Flow(float64(n.Demand) * sc.factor)
 		}
-		sol, err := solver.Solve(demand, scaledStart(r.scenarios[:i], sc.factor))
+		sol, err := solver.Solve(demand, warmStart(r.scenarios[:i], sc.factor))
 		if err != nil {
 			return r.scenarioError(sc.name, err)
 		}
@@ -400,24 +401,41 @@ func (r *result) solveScenarios() error {
 	return nil
 }
 
-// scaledStart is the warm start of a scenario of demand factor f after the
-// scenarios done: the last one's flows times f over its factor. With the
-// grades held, flows grow about in proportion to demand, so the Newton
-// iteration starts near its answer and needs fewer factorisations (at a
-// million pipes each costs about a second); nil for the first scenario.
-// The solution is the same to the solver's tolerance either way.
-func scaledStart(done []scenario, f float64) *hydraulics.Solution {
+// warmStart is the starting flows of a scenario of demand factor f after
+// the scenarios done; nil (a cold start) for the first.
+//
+//   - After one scenario, its flows as they are: the first Newton step from
+//     them is the tangent to the solution as demand changes.
+//   - After two or more, the line through the last two scenarios' flows,
+//     taken to f: Q = Q₂ + (f − f₂)/(f₂ − f₁)·(Q₂ − Q₁). Flows are not
+//     proportional to demand where several sources at fixed grades feed the
+//     network (the flows between them do not grow with demand), but they
+//     are close to linear in it over the range of the peaking factors.
+//
+// On the demo town these took 24, 25 and 25 iterations for the three
+// scenarios at 10k, 100k and 1M pipes, against 24, 26 and 27 when each
+// scenario started from the last one's flows scaled by the ratio of the
+// factors (at a million pipes an iteration costs about 0.2 s). The
+// solution is the same to the solver's tolerance whatever the start.
+func warmStart(done []scenario, f float64) *hydraulics.Solution {
 	if len(done) == 0 {
 		return nil
 	}
 	last := done[len(done)-1]
-	if last.sol == nil || last.factor <= 0 {
+	if last.sol == nil {
 		return nil
 	}
-	k := f / last.factor
-	flow := make([]hydraulics.Flow, len(last.sol.Flow))
-	for j, q := range last.sol.Flow {
-		flow[j] = hydraulics.Flow(float64(q) * k)
+	flow := slices.Clone(last.sol.Flow)
+	if len(done) == 1 {
+		return &hydraulics.Solution{Flow: flow}
+	}
+	prev := done[len(done)-2]
+	if prev.sol == nil || prev.factor == last.factor || len(prev.sol.Flow) != len(flow) {
+		return &hydraulics.Solution{Flow: flow}
+	}
+	t := (f - last.factor) / (last.factor - prev.factor)
+	for j, q := range prev.sol.Flow {
+		flow[j] += hydraulics.Flow(t * float64(flow[j]-q))
 	}
 	return &hydraulics.Solution{Flow: flow}
 }

@@ -9,7 +9,7 @@ import (
 
 // TestScenariosShareOneSolver: the scenarios, solved on one Solver with
 // each scenario's grades and factored demands, each after the first started
-// from the one before it scaled (solveScenarios, scaledStart), agree with a
+// from the ones before it (solveScenarios, warmStart), agree with a
 // separate cold hydraulics.Solve of each scenario's network with its
 // DemandFactor to within what the solver's convergence test allows: heads
 // to 1e-6 m and flows to 1e-6 of the largest flow (the test stops at a
