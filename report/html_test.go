@@ -523,6 +523,16 @@ func TestHTMLSheets(t *testing.T) {
 	if n := len(all(sheets[1], func(n *html.Node) bool { return n.Data == "table" })); n != 0 {
 		t.Errorf("sheet PRJ-2: got %d tables, want none", n)
 	}
+	// A note on sheets left out is printed in the sheets' section, and
+	// only when there is one.
+	section := byID(doc, "hr-sheets")
+	if strings.Contains(text(section), "left out") {
+		t.Errorf("a note without SheetNote")
+	}
+	d.SheetNote = "Sheets for 2 of 9 projects; the 7 left out are in projects.csv."
+	if got := text(byID(parse(t, render(t, d)), "hr-sheets")); !strings.Contains(got, d.SheetNote) {
+		t.Errorf("the sheets' section lacks the note %q", d.SheetNote)
+	}
 }
 
 func TestHTMLEscapes(t *testing.T) {

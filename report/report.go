@@ -22,6 +22,9 @@ type Document struct {
 	// Sheets are the evidence sheets, one per project (or per top segment
 	// when the run has no projects), in the order the plan ranks them.
 	Sheets []Sheet
+	// SheetNote, when set, says which entries have no sheet and where they
+	// are listed instead.
+	SheetNote string
 	// Method is the method and its sources, one section per stage.
 	Method []Section
 	// Sources are the published methods and tables cited, one per line.

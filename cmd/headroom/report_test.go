@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -17,6 +18,7 @@ import (
 
 	"github.com/xuri/excelize/v2"
 
+	"headroom/gis"
 	"headroom/report"
 	"headroom/report/reportcheck"
 )
@@ -29,7 +31,7 @@ import (
 // from the page is what is checked.
 func TestReportEquationsReproduceSolver(t *testing.T) {
 	r := demoResult(t)
-	sheets := r.reportSheets()
+	sheets, _ := r.reportSheets()
 	if len(sheets) != len(r.prog.projects) {
 		t.Fatalf("%d sheets for %d projects", len(sheets), len(r.prog.projects))
 	}
@@ -328,7 +330,7 @@ func TestReportWithoutFireFlow(t *testing.T) {
 	base := demoResult(t)
 	r := *base // a shallow copy: only fireCharge changes
 	r.fireCharge = nil
-	sheets := r.reportSheets()
+	sheets, _ := r.reportSheets()
 	if len(sheets) != len(r.prog.projects) {
 		t.Fatalf("%d sheets for %d projects", len(sheets), len(r.prog.projects))
 	}
@@ -472,5 +474,61 @@ func TestLongCellsFitTheSheet(t *testing.T) {
 	if err := report.WriteXLSX(&bytes.Buffer{}, &report.Workbook{Sheets: []report.WorkSheet{{Name: "plan",
 		Columns: []report.WorkColumn{{Name: "a"}, {Name: "b"}, {Name: "c"}}, Rows: [][]any{values}}}}); err == nil {
 		t.Fatal("the uncut text was accepted: the check above tests nothing")
+	}
+}
+
+// TestReportSheetsCapped: past the sheet limit the report keeps the head
+// of the plan's order (every funded project, then the unfunded ones by
+// benefit per dollar), says how many projects have no sheet, and the map
+// links only the mains of projects that have one. The rule is the one
+// reportSheetsUpTo states; the check rebuilds it from planOrder and the
+// plan's years.
+func TestReportSheetsCapped(t *testing.T) {
+	r := demoResult(t)
+	order := r.planOrder()
+	funded := 0
+	for _, y := range r.prog.plan.Years {
+		funded += len(y.Projects)
+	}
+	if funded == 0 || len(order) < funded+3 {
+		t.Fatalf("the demo town's plan funds %d of %d projects; the test needs unfunded ones", funded, len(order))
+	}
+	for _, limit := range []int{0, funded + 2} {
+		sheets, note := r.reportSheetsUpTo(limit)
+		want := max(funded, limit)
+		if len(sheets) != want {
+			t.Fatalf("limit %d: %d sheets, want %d (funded %d)", limit, len(sheets), want, funded)
+		}
+		for k, sh := range sheets {
+			if id := r.prog.projects[order[k]].id; sh.ID != id {
+				t.Fatalf("limit %d: sheet %d is %s, the plan's order has %s", limit, k+1, sh.ID, id)
+			}
+		}
+		if !strings.Contains(note, fmt.Sprintf("first %d of the %d projects", want, len(order))) || !strings.Contains(note, "projects.csv") {
+			t.Errorf("limit %d: note %q", limit, note)
+		}
+		ids := sheetIDs(sheets)
+		m := r.reportMap(r.pipeLayer(), r.hydrantOutput(), ids)
+		linked, unlinked := 0, 0
+		for _, mm := range m.Mains {
+			k := slices.IndexFunc(r.pipes, func(p gis.Pipe) bool { return p.ID == mm.ID })
+			inProject := k >= 0 && r.prog.projectOf[k] >= 0
+			switch {
+			case mm.Sheet != "" && !ids[mm.Sheet]:
+				t.Fatalf("limit %d: main %s links to %s, which has no sheet", limit, mm.ID, mm.Sheet)
+			case mm.Sheet != "":
+				linked++
+			case inProject && ids[r.prog.projects[r.prog.projectOf[k]].id]:
+				t.Fatalf("limit %d: main %s of a project with a sheet has no link", limit, mm.ID)
+			case inProject:
+				unlinked++
+			}
+		}
+		if linked == 0 || unlinked == 0 {
+			t.Errorf("limit %d: %d mains linked, %d in projects without a sheet; want both", limit, linked, unlinked)
+		}
+	}
+	if sheets, note := r.reportSheetsUpTo(len(order)); len(sheets) != len(order) || note != "" {
+		t.Errorf("at the limit: %d sheets of %d, note %q", len(sheets), len(order), note)
 	}
 }

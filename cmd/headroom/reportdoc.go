@@ -23,22 +23,33 @@ const reportTopSegments = 20
 // reportDocument builds the report from the run and its output layers.
 func (r *result) reportDocument(pipes, hydrants *gis.Layer) *report.Document {
 	s := r.cfg.system()
+	sheets, sheetNote := r.reportSheets()
 	d := &report.Document{
-		Title:    r.title + " — water main capital plan screening",
-		Subtitle: fmt.Sprintf("headroom %s · analysis year %d · %s units · peak hour governs the criteria and scores", version, r.cfg.AnalysisYear, strings.ToUpper(s.String())),
-		Cautions: cautions,
-		Summary:  r.reportSummary(),
-		Map:      r.reportMap(pipes, hydrants),
-		Charts:   r.reportCharts(pipes),
-		Sheets:   r.reportSheets(),
-		Method:   r.reportMethod(),
-		Sources:  reportSources,
+		Title:     r.title + " — water main capital plan screening",
+		Subtitle:  fmt.Sprintf("headroom %s · analysis year %d · %s units · peak hour governs the criteria and scores", version, r.cfg.AnalysisYear, strings.ToUpper(s.String())),
+		Cautions:  cautions,
+		Summary:   r.reportSummary(),
+		Map:       r.reportMap(pipes, hydrants, sheetIDs(sheets)),
+		Charts:    r.reportCharts(pipes),
+		Sheets:    sheets,
+		SheetNote: sheetNote,
+		Method:    r.reportMethod(),
+		Sources:   reportSources,
 	}
 	d.Tables = append(d.Tables, r.reportInputTable(), r.reportScenarioTable(), r.reportCriteriaTable())
 	if t := r.reportPlanTable(); t != nil {
 		d.Tables = append(d.Tables, *t)
 	}
 	return d
+}
+
+// sheetIDs is the set of the sheets' IDs.
+func sheetIDs(sheets []report.Sheet) map[string]bool {
+	ids := make(map[string]bool, len(sheets))
+	for _, sh := range sheets {
+		ids[sh.ID] = true
+	}
+	return ids
 }
 
 // reportSummary is the headline figures.

@@ -91,8 +91,9 @@ func cellText(l *gis.Layer, cols map[string]int, row gis.Row, name string) strin
 }
 
 // reportMap draws every main coloured by priority (or by score without a
-// program) and every tested hydrant by NFPA 291 class.
-func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
+// program) and every tested hydrant by NFPA 291 class. A main of a project
+// whose ID is in sheets links to that evidence sheet.
+func (r *result) reportMap(pipes, hydrants *gis.Layer, sheets map[string]bool) report.Map {
 	s := r.cfg.system()
 	proj := newMapProjection(pipes)
 	cols := layerColumns(pipes)
@@ -101,7 +102,7 @@ func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
 		valueCol, label = "priority", "priority (0–100)"
 	}
 	m := report.Map{
-		Caption:    fmt.Sprintf("Mains coloured by %s; hydrants by NFPA 291 class of available fire flow at %.0f %s residual. Click a main in a project for its evidence sheet.", label, s.Pressure(hydraulics.Pressure(r.cfg.si(r.cfg.fireResidual()))), s.PressureLabel()),
+		Caption:    fmt.Sprintf("Mains coloured by %s; hydrants by NFPA 291 class of available fire flow at %.0f %s residual. Click a main in a project with an evidence sheet to open the sheet.", label, s.Pressure(hydraulics.Pressure(r.cfg.si(r.cfg.fireResidual()))), s.PressureLabel()),
 		ScaleLabel: label, ScaleMin: 0, ScaleMax: 100,
 		UnitsPerLength: 1 / s.Length(1), LengthName: s.LengthLabel(), // map metres per ft (or per m)
 	}
@@ -122,7 +123,9 @@ func (r *result) reportMap(pipes, hydrants *gis.Layer) report.Map {
 			mm.Value, mm.HasValue = v, true
 		}
 		if r.prog != nil && r.prog.projectOf[i] >= 0 {
-			mm.Sheet = r.prog.projects[r.prog.projectOf[i]].id
+			if id := r.prog.projects[r.prog.projectOf[i]].id; sheets[id] {
+				mm.Sheet = id
+			}
 		}
 		mm.Tip = []report.Figure{{Label: "main", Value: r.pipes[i].ID}}
 		if st := r.pipes[i].Street; st != "" {
