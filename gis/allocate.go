@@ -177,6 +177,22 @@ func ReadAreaDemands(path string, s DemandSchema) ([]AreaDemand, []Problem, erro
 // the area out with a Problem; zero is kept. It returns an error if no
 // area is usable.
 func AreaDemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandSchema) ([]AreaDemand, []Problem, error) {
+	return areaDemandsFrom(fromLonLat(file, fc), s)
+}
+
+// AreaDemandsFromLayer is AreaDemandsFromCollection for a layer whose
+// features are already in lon/lat (areas are taken to lon/lat by their
+// caller, which keeps their edges' shape), with the layer's properties.
+func AreaDemandsFromLayer(c *Collection, lonLat *geojson.FeatureCollection, s DemandSchema) ([]AreaDemand, []Problem, error) {
+	out := *c
+	out.Features, out.CRS = lonLat, CRS84
+	return areaDemandsFrom(&out, s)
+}
+
+// areaDemandsFrom reads the demand areas of a lon/lat layer (see
+// AreaDemandsFromCollection).
+func areaDemandsFrom(c *Collection, s DemandSchema) ([]AreaDemand, []Problem, error) {
+	file, fc := c.File, c.Features
 	u, err := flowUnit(s.DemandUnit, "demands.fields.demand_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -187,7 +203,7 @@ func AreaDemandsFromCollection(file string, fc *geojson.FeatureCollection, s Dem
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(c, []fieldSpec{
 		{key: "demands.fields.demand", prop: s.Demand, required: true},
 		{key: "demands.fields.id", prop: s.ID, isID: true},
 	})
@@ -210,14 +226,14 @@ func AreaDemandsFromCollection(file string, fc *geojson.FeatureCollection, s Dem
 			add(field, what, "demand area left out; "+fix)
 		}
 		if s.ID != "" {
-			a.ID = allocFeatureID(f, s.ID, seen, a.Index, add, "demand area")
+			a.ID = allocFeatureID(f, c.Attrs(i), s.ID, seen, a.Index, add, "demand area")
 		}
 		mp, what := allocAreaGeometry(f.Geometry)
 		if what != "" {
 			drop("geometry", what, "supply a Polygon or MultiPolygon in lon/lat (WGS84)")
 		}
 		a.Area = mp
-		v, name, _ := lookup(f.Properties, s.Demand)
+		v, name, _ := lookup(c.Attrs(i), s.Demand)
 		if name == "" {
 			name = s.Demand
 		}
@@ -246,8 +262,8 @@ func AreaDemandsFromCollection(file string, fc *geojson.FeatureCollection, s Dem
 
 // allocFeatureID reads a feature's id (the mapped property, else the
 // feature's own id member) and reports one already used.
-func allocFeatureID(f *geojson.Feature, prop string, seen map[string]int, index int, add func(field, what, action string), noun string) string {
-	v, name, ok := lookup(f.Properties, prop)
+func allocFeatureID(f *geojson.Feature, a Attrs, prop string, seen map[string]int, index int, add func(field, what, action string), noun string) string {
+	v, name, ok := lookup(a, prop)
 	if !ok {
 		v, name = f.ID, "id"
 	}

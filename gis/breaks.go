@@ -70,13 +70,25 @@ func ReadBreaks(path string, s BreakSchema) ([]Break, []Problem, error) {
 // Problem says so) and left out otherwise. It returns an error if no break
 // is usable.
 func BreaksFromCollection(file string, fc *geojson.FeatureCollection, s BreakSchema) ([]Break, []Problem, error) {
+	return breaksFrom(fromLonLat(file, fc), s)
+}
+
+// BreaksFromLayer is BreaksFromCollection for a layer in any coordinate
+// system.
+func BreaksFromLayer(c *Collection, s BreakSchema) ([]Break, []Problem, error) {
+	return breaksFrom(c.lonLatLayer(), s)
+}
+
+// breaksFrom reads the breaks of a lon/lat layer (see BreaksFromCollection).
+func breaksFrom(c *Collection, s BreakSchema) ([]Break, []Problem, error) {
+	file, fc := c.File, c.Features
 	if fc == nil || len(fc.Features) == 0 {
 		return nil, nil, &FieldError{File: file, Err: fmt.Errorf("no features; check the config key breaks.path")}
 	}
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(c, []fieldSpec{
 		{key: "breaks.fields.date", prop: s.Date, required: true},
 		{key: "breaks.fields.id", prop: s.ID, isID: true},
 		{key: "breaks.fields.pipe_id", prop: s.PipeID},
@@ -89,17 +101,18 @@ func BreaksFromCollection(file string, fc *geojson.FeatureCollection, s BreakSch
 	usable := 0
 	for i, f := range fc.Features {
 		b := Break{Index: i + 1, File: file, Usable: true}
+		a := c.Attrs(i)
 		add := func(field, what, action string) {
 			probs = append(probs, Problem{File: file, Feature: b.Index, ID: b.ID, Field: field, What: what, Action: action})
 		}
 		if s.ID != "" {
-			b.ID = allocFeatureID(f, s.ID, seen, b.Index, add, "break")
+			b.ID = allocFeatureID(f, a, s.ID, seen, b.Index, add, "break")
 		}
-		if v, name, ok := lookup(f.Properties, s.PipeID); ok {
+		if v, name, ok := lookup(a, s.PipeID); ok {
 			b.PipeID, b.pipeField = idString(v), name
 		}
 		breakPoint(&b, f.Geometry, add)
-		breakDate(&b, f.Properties, s, add)
+		breakDate(&b, a, s, add)
 		if b.Usable {
 			usable++
 		}
@@ -130,7 +143,7 @@ func breakPoint(b *Break, g orb.Geometry, add func(field, what, action string)) 
 }
 
 // breakDate reads the date into b.Date and b.Year, or leaves the break out.
-func breakDate(b *Break, props geojson.Properties, s BreakSchema, add func(field, what, action string)) {
+func breakDate(b *Break, props Attrs, s BreakSchema, add func(field, what, action string)) {
 	v, name, _ := lookup(props, s.Date)
 	if name == "" {
 		name = s.Date

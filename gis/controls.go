@@ -5,8 +5,6 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/paulmach/orb/geojson"
-
 	"headroom/hydraulics"
 )
 
@@ -50,7 +48,8 @@ type ctlGradeField struct {
 // out (treating it as a plain reservoir at its wet-well level would starve
 // the network). It returns the ErrNoUsable error when that leaves no usable
 // source.
-func readSourceControls(file string, fc *geojson.FeatureCollection, s SourceSchema, pts []Point) ([]Problem, error) {
+func readSourceControls(c *Collection, s SourceSchema, pts []Point) ([]Problem, error) {
+	file, fc := c.File, c.Features
 	gUnit, err := lengthUnit(s.GradeUnit, "sources.fields.grade_unit")
 	if err != nil {
 		return nil, &FieldError{File: file, Err: err}
@@ -75,7 +74,7 @@ func readSourceControls(file string, fc *geojson.FeatureCollection, s SourceSche
 	for _, g := range grades {
 		specs = append(specs, fieldSpec{key: g.key, prop: g.prop})
 	}
-	probs, err := checkFields(file, fc, specs)
+	probs, err := checkFields(c, specs)
 	if err != nil {
 		return nil, err
 	}
@@ -89,15 +88,15 @@ func readSourceControls(file string, fc *geojson.FeatureCollection, s SourceSche
 		if !p.Usable || i >= len(fc.Features) {
 			continue
 		}
-		props := fc.Features[i].Properties
-		c := &SourceControls{GradeMaxDay: hydraulics.Head(p.Value), GradePeakHour: hydraulics.Head(p.Value), GradeFire: hydraulics.Head(p.Value)}
+		props := c.Attrs(i)
+		ctl := &SourceControls{GradeMaxDay: hydraulics.Head(p.Value), GradePeakHour: hydraulics.Head(p.Value), GradeFire: hydraulics.Head(p.Value)}
 		for _, g := range grades {
 			h, prob, ok := ctlScenarioGrade(p, props, g, gUnit, gLabel)
 			if prob != nil {
 				probs = append(probs, *prob)
 			}
 			if ok {
-				g.set(c, h)
+				g.set(ctl, h)
 			}
 		}
 		sp, prob := ctlReadPump(p, props, pump, gUnit, qUnit, gLabel, unitLabel(s.PumpFlowUnit, "gpm"))
@@ -106,8 +105,8 @@ func readSourceControls(file string, fc *geojson.FeatureCollection, s SourceSche
 			p.Usable, p.Reason = false, prob.What
 			continue
 		}
-		c.Pump = sp
-		p.Controls = c
+		ctl.Pump = sp
+		p.Controls = ctl
 		usable++
 	}
 	if usable == 0 {
@@ -146,7 +145,7 @@ func ctlPlural(n int) string {
 // ctlScenarioGrade reads one per-scenario grade of source p. ok is false
 // when the grade field's value stands (field unmapped, value empty, or
 // reported as bad in prob).
-func ctlScenarioGrade(p *Point, props geojson.Properties, g ctlGradeField, unit hydraulics.Length, label string) (h hydraulics.Head, prob *Problem, ok bool) {
+func ctlScenarioGrade(p *Point, props Attrs, g ctlGradeField, unit hydraulics.Length, label string) (h hydraulics.Head, prob *Problem, ok bool) {
 	v, name, found := lookup(props, g.prop)
 	if !found {
 		return 0, nil, false
@@ -176,7 +175,7 @@ func ctlScenarioGrade(p *Point, props geojson.Properties, g ctlGradeField, unit 
 // or the curve cannot be fitted. Heads are in the grade unit, flows in the
 // pump flow unit; the points are (0, shutoff), (design flow, design head),
 // (max flow, max head).
-func ctlReadPump(p *Point, props geojson.Properties, specs []fieldSpec, hUnit hydraulics.Length, qUnit hydraulics.Flow, hLabel, qLabel string) (*SourcePump, *Problem) {
+func ctlReadPump(p *Point, props Attrs, specs []fieldSpec, hUnit hydraulics.Length, qUnit hydraulics.Flow, hLabel, qLabel string) (*SourcePump, *Problem) {
 	if specs[0].prop == "" {
 		return nil, nil
 	}

@@ -9,6 +9,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strconv"
 	"strings"
 
@@ -36,24 +37,41 @@ type rawFeature struct {
 // geojson_scan.go (decodeGeoJSON), which gives what decodeCollectionStd
 // gives.
 func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
+	fc, attrs, err := readGeoJSON(path, key)
+	if err != nil {
+		return nil, err
+	}
+	if attrs != nil {
+		for i, f := range fc.Features {
+			f.Properties = attrs[i].Map()
+		}
+	}
+	return fc, nil
+}
+
+// readGeoJSON is ReadCollection with the properties as Attrs, one per
+// feature, and the features' Properties nil (see decodeGeoJSONAttrs); attrs
+// is nil when the features keep their maps.
+func readGeoJSON(path, key string) (*geojson.FeatureCollection, []Attrs, error) {
 	file := filepath.Base(path)
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, &FieldError{File: file, Err: fmt.Errorf("cannot read %s: %w; check the config key %s.path", path, err, key)}
+		return nil, nil, &FieldError{File: file, Err: fmt.Errorf("cannot read %s: %w; check the config key %s.path", path, err, key)}
 	}
 	defer f.Close()
 	data, err := readAllFile(f)
 	if err == nil {
 		var fc *geojson.FeatureCollection
-		if fc, err = decodeGeoJSON(data, file); err == nil {
-			return fc, nil
+		var attrs []Attrs
+		if fc, attrs, err = decodeGeoJSONAttrs(data, file, min(runtime.GOMAXPROCS(0), maxRuns), minRunBytes); err == nil {
+			return fc, attrs, nil
 		}
 	}
 	var fe *FieldError
 	if errors.As(err, &fe) {
-		return nil, err
+		return nil, nil, err
 	}
-	return nil, &FieldError{File: file, Err: fmt.Errorf("not a GeoJSON file (%w); check the config key %s.path", err, key)}
+	return nil, nil, &FieldError{File: file, Err: fmt.Errorf("not a GeoJSON file (%w); check the config key %s.path", err, key)}
 }
 
 // readAllFile reads the rest of f into one buffer sized from its length.

@@ -8,7 +8,6 @@ import (
 	"strconv"
 
 	"github.com/paulmach/orb"
-	"github.com/paulmach/orb/geojson"
 
 	"headroom/hydraulics"
 )
@@ -70,7 +69,7 @@ func Describe(c *Collection) *LayerSummary {
 	}
 	slices.SortStableFunc(s.Geometry, func(a, b GeometryCount) int { return cmp.Compare(b.Count, a.Count) })
 	for _, fi := range fieldOrder(c) {
-		s.Fields = append(s.Fields, describeField(c.Features, fi))
+		s.Fields = append(s.Fields, describeField(c, fi))
 	}
 	return s
 }
@@ -82,8 +81,8 @@ func fieldOrder(c *Collection) []FieldInfo {
 		return c.Fields
 	}
 	seen := map[string]bool{}
-	for _, f := range c.Features.Features {
-		for k := range f.Properties {
+	for i := range c.Features.Features {
+		for k := range c.Attrs(i).All() {
 			seen[k] = true
 		}
 	}
@@ -94,12 +93,12 @@ func fieldOrder(c *Collection) []FieldInfo {
 	return out
 }
 
-func describeField(fc *geojson.FeatureCollection, fi FieldInfo) FieldSummary {
+func describeField(c *Collection, fi FieldInfo) FieldSummary {
 	fs := FieldSummary{Name: fi.Name, Type: fi.Type}
 	kinds := map[string]bool{}
 	distinct := map[string]bool{}
-	for _, f := range fc.Features {
-		v, ok := f.Properties[fi.Name]
+	for i := range c.Features.Features {
+		v, ok := c.Attrs(i).Get(fi.Name)
 		if !ok || v == nil {
 			fs.Nulls++
 			continue

@@ -45,13 +45,26 @@ func ReadFacilities(path string, s FacilitySchema) ([]Facility, []Problem, error
 // facility without a usable point is left out (Usable false) with a
 // Problem. It returns an error if no facility is usable.
 func FacilitiesFromCollection(file string, fc *geojson.FeatureCollection, s FacilitySchema) ([]Facility, []Problem, error) {
+	return facilitiesFrom(fromLonLat(file, fc), s)
+}
+
+// FacilitiesFromLayer is FacilitiesFromCollection for a layer in any
+// coordinate system.
+func FacilitiesFromLayer(c *Collection, s FacilitySchema) ([]Facility, []Problem, error) {
+	return facilitiesFrom(c.lonLatLayer(), s)
+}
+
+// facilitiesFrom reads the facilities of a lon/lat layer (see
+// FacilitiesFromCollection).
+func facilitiesFrom(layer *Collection, s FacilitySchema) ([]Facility, []Problem, error) {
+	file, fc := layer.File, layer.Features
 	if fc == nil || len(fc.Features) == 0 {
 		return nil, nil, &FieldError{File: file, Err: fmt.Errorf("no features; check the config key facilities.path")}
 	}
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(layer, []fieldSpec{
 		{key: "facilities.fields.id", prop: s.ID, isID: true},
 		{key: "facilities.fields.kind", prop: s.Kind},
 	})
@@ -67,9 +80,9 @@ func FacilitiesFromCollection(file string, fc *geojson.FeatureCollection, s Faci
 			probs = append(probs, Problem{File: file, Feature: c.Index, ID: c.ID, Field: field, What: what, Action: action})
 		}
 		if s.ID != "" {
-			c.ID = allocFeatureID(f, s.ID, seen, c.Index, add, "facility")
+			c.ID = allocFeatureID(f, layer.Attrs(i), s.ID, seen, c.Index, add, "facility")
 		}
-		if v, _, ok := lookup(f.Properties, s.Kind); ok {
+		if v, _, ok := lookup(layer.Attrs(i), s.Kind); ok {
 			c.Kind = idString(v)
 		}
 		if what := hydPoint(f.Geometry, &c.At); what != "" {

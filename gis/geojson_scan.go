@@ -57,8 +57,9 @@ type scanner struct {
 	feats     []geojson.Feature // slab the next features are taken from
 	pts       []orb.Point       // slab of coordinates; the current line starts at lineStart
 	lineStart int
-	propHint  int      // property count of the last feature: the next map's size hint
-	propNames []string // the last feature's property names in order: the likely next ones
+	props     attrsBuilder // the properties of the feature being read
+
+	attrs []Attrs // per feature of fc, in order
 
 	keys internTable[string] // property names
 	strs internTable[any]    // boxed short string values
@@ -67,7 +68,8 @@ type scanner struct {
 
 // decodeGeoJSON decodes a GeoJSON FeatureCollection or bare Feature from
 // data with the scanner, falling back to decodeCollectionStd for input the
-// scanner does not handle.
+// scanner does not handle. The features' Properties are maps, as
+// decodeCollectionStd gives them.
 func decodeGeoJSON(data []byte, file string) (*geojson.FeatureCollection, error) {
 	return decodeGeoJSONRuns(data, file, min(runtime.GOMAXPROCS(0), maxRuns), minRunBytes)
 }
@@ -75,12 +77,27 @@ func decodeGeoJSON(data []byte, file string) (*geojson.FeatureCollection, error)
 // decodeGeoJSONRuns is decodeGeoJSON reading the features in up to n runs
 // of at least runBytes.
 func decodeGeoJSONRuns(data []byte, file string, n, runBytes int) (*geojson.FeatureCollection, error) {
+	fc, attrs, err := decodeGeoJSONAttrs(data, file, n, runBytes)
+	if fc != nil && attrs != nil {
+		for i, f := range fc.Features {
+			f.Properties = attrs[i].Map()
+		}
+	}
+	return fc, err
+}
+
+// decodeGeoJSONAttrs is decodeGeoJSONRuns with each feature's properties
+// as Attrs, one per feature, and the features' Properties nil; attrs is nil
+// when the input went to decodeCollectionStd, whose features keep their
+// maps.
+func decodeGeoJSONAttrs(data []byte, file string, n, runBytes int) (fc *geojson.FeatureCollection, attrs []Attrs, err error) {
 	s := &scanner{data: data, file: file, maxRuns: n, runBytes: runBytes}
 	fc, ok, err := s.collection()
 	if !ok {
-		return decodeCollectionStd(bytes.NewReader(data), file)
+		fc, err = decodeCollectionStd(bytes.NewReader(data), file)
+		return fc, nil, err
 	}
-	return fc, err
+	return fc, s.attrs, err
 }
 
 // collection reads the top-level object. ok is false when the input is to
@@ -206,7 +223,7 @@ func (s *scanner) features(fc *geojson.FeatureCollection) (ok bool, err error) {
 			return false, nil
 		}
 		if r.maxErr != nil && i == 0 {
-			fc.Features = append(fc.Features, r.feats...)
+			fc.Features, s.attrs = append(fc.Features, r.feats...), append(s.attrs, r.attrs...)
 			return true, r.maxErr
 		}
 		base := len(fc.Features)
@@ -214,7 +231,7 @@ func (s *scanner) features(fc *geojson.FeatureCollection) (ok bool, err error) {
 			// Read it all in one run, which stops at MaxFeatures as the reference does.
 			break
 		}
-		fc.Features = append(fc.Features, r.feats...)
+		fc.Features, s.attrs = append(fc.Features, r.feats...), append(s.attrs, r.attrs...)
 		if r.errEnd > 0 {
 			// The feature's error again, now with its index in the layer.
 			_, err := decodeFeatureStd(s.data[r.errStart:r.errEnd], s.file, len(fc.Features)+1)
@@ -233,7 +250,7 @@ func (s *scanner) features(fc *geojson.FeatureCollection) (ok bool, err error) {
 		if rest.bail {
 			return false, nil
 		}
-		fc.Features = append(fc.Features, rest.feats...)
+		fc.Features, s.attrs = append(fc.Features, rest.feats...), append(s.attrs, rest.attrs...)
 		s.pos = rest.end
 		if rest.errEnd > 0 {
 			return true, rest.err
@@ -242,7 +259,7 @@ func (s *scanner) features(fc *geojson.FeatureCollection) (ok bool, err error) {
 	}
 	one := &featureRun{start: runs[0].start, limit: -1}
 	one.read(s.data, s.file)
-	fc.Features = append(fc.Features[:0], one.feats...)
+	fc.Features, s.attrs = append(fc.Features[:0], one.feats...), append(s.attrs[:0], one.attrs...)
 	s.pos = one.end
 	switch {
 	case one.bail:
@@ -312,9 +329,10 @@ type featureRun struct {
 	base  int // features before start, when known (the last run read alone)
 
 	feats  []*geojson.Feature
-	end    int  // where reading stopped: the first feature start ≥ limit, or just past ']'
-	closed bool // the array ended in this run
-	bail   bool // the input is to go to decodeCollectionStd
+	attrs  []Attrs // per feature of feats
+	end    int     // where reading stopped: the first feature start ≥ limit, or just past ']'
+	closed bool    // the array ended in this run
+	bail   bool    // the input is to go to decodeCollectionStd
 
 	errStart, errEnd int   // extent of the feature that is an error (errEnd 0: none)
 	err              error // that error, numbered base + its place in the run
@@ -340,7 +358,7 @@ func (r *featureRun) read(data []byte, file string) {
 			return
 		}
 		start := s.pos
-		f, fast := s.feature()
+		f, a, fast := s.feature()
 		if !fast {
 			s.pos = start
 			if !s.skipValue(0) {
@@ -352,8 +370,9 @@ func (r *featureRun) read(data []byte, file string) {
 				r.errStart, r.errEnd, r.err = start, s.pos, err
 				return
 			}
+			a, f.Properties = attrsOf(f.Properties), nil
 		}
-		r.feats = append(r.feats, f)
+		r.feats, r.attrs = append(r.feats, f), append(r.attrs, a)
 		if !s.skipSpace() {
 			r.bail = true
 			return
@@ -392,11 +411,12 @@ const (
 	seenCoordinates
 )
 
-// feature reads a feature object that the scanner handles itself; fast is
-// false when the feature is to be decoded by decodeFeatureStd instead.
-func (s *scanner) feature() (f *geojson.Feature, fast bool) {
+// feature reads a feature object that the scanner handles itself, its
+// Properties nil and its properties in a; fast is false when the feature
+// is to be decoded by decodeFeatureStd instead.
+func (s *scanner) feature() (f *geojson.Feature, a Attrs, fast bool) {
 	if s.data[s.pos] != '{' {
-		return nil, false
+		return nil, a, false
 	}
 	s.pos++
 	if len(s.feats) == 0 {
@@ -407,7 +427,7 @@ func (s *scanner) feature() (f *geojson.Feature, fast bool) {
 	seen := 0
 	for first := true; ; first = false {
 		if !s.skipSpace() {
-			return nil, false
+			return nil, a, false
 		}
 		if s.data[s.pos] == '}' && first {
 			s.pos++
@@ -415,42 +435,42 @@ func (s *scanner) feature() (f *geojson.Feature, fast bool) {
 		}
 		name, ok := s.rawKey()
 		if !ok {
-			return nil, false
+			return nil, a, false
 		}
 		var bit int
 		switch string(name) {
 		case "type":
 			bit = seenType
 			if v, plain, ok := s.stringToken(); !ok || !plain || string(v) != "Feature" {
-				return nil, false
+				return nil, a, false
 			}
 			f.Type = "Feature"
 		case "id":
 			bit = seenID
 			if f.ID, ok = s.value(0); !ok {
-				return nil, false
+				return nil, a, false
 			}
 		case "geometry":
 			bit = seenGeometry
 			if f.Geometry, ok = s.geometry(); !ok {
-				return nil, false
+				return nil, a, false
 			}
 		case "properties":
 			bit = seenProperties
-			if f.Properties, ok = s.properties(); !ok {
-				return nil, false
+			if a, ok = s.properties(); !ok {
+				return nil, a, false
 			}
 		default:
 			if !plainOtherKey(name, "type", "id", "geometry", "properties") || !s.skipValue(0) {
-				return nil, false
+				return nil, a, false
 			}
 		}
 		if seen&bit != 0 {
-			return nil, false
+			return nil, a, false
 		}
 		seen |= bit
 		if !s.skipSpace() {
-			return nil, false
+			return nil, a, false
 		}
 		c := s.data[s.pos]
 		s.pos++
@@ -458,17 +478,14 @@ func (s *scanner) feature() (f *geojson.Feature, fast bool) {
 			break
 		}
 		if c != ',' {
-			return nil, false
+			return nil, a, false
 		}
 	}
 	if seen&seenType == 0 {
-		return nil, false
-	}
-	if f.Properties == nil {
-		f.Properties = geojson.Properties{}
+		return nil, a, false
 	}
 	s.feats = s.feats[1:]
-	return f, true
+	return f, a, true
 }
 
 // plainOtherKey reports whether name is an ASCII key that encoding/json
@@ -504,22 +521,24 @@ func asciiEqualFold(a string, b []byte) bool {
 	return true
 }
 
-// properties reads a properties value: null (an empty map, as the reference
-// makes it) or an object of JSON values.
-func (s *scanner) properties() (geojson.Properties, bool) {
+// properties reads a properties value: null (no properties, as the
+// reference makes it an empty map) or an object of JSON values. A name
+// repeated in the object is refused (ok false): the reference keeps its
+// last value, and the feature is left to it.
+func (s *scanner) properties() (Attrs, bool) {
 	switch s.data[s.pos] {
 	case 'n':
-		return geojson.Properties{}, s.literal("null")
+		return Attrs{}, s.literal("null")
 	case '{':
 	default:
-		return nil, false
+		return Attrs{}, false
 	}
 	s.pos++
-	props := make(geojson.Properties, s.propHint)
-	names := s.propNames[:0]
+	b := &s.props
+	b.reset()
 	for first := true; ; first = false {
 		if !s.skipSpace() {
-			return nil, false
+			return Attrs{}, false
 		}
 		if s.data[s.pos] == '}' && first {
 			s.pos++
@@ -528,31 +547,29 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 		start := s.pos
 		body, plain, ok := s.stringToken()
 		if !ok {
-			return nil, false
+			return Attrs{}, false
 		}
 		var name string
-		if k := len(names); plain && k < len(s.propNames) && s.propNames[k] == string(body) {
-			name = s.propNames[k]
+		if k := len(b.names); plain && k < len(b.last) && b.last[k] == string(body) {
+			name = b.last[k]
 		} else if plain {
 			name = s.keys.get(body, plainString)
 		} else if name, ok = decodeJSONString(s.data[start:s.pos]); !ok {
-			return nil, false
+			return Attrs{}, false
 		}
 		if !s.skipSpace() || s.data[s.pos] != ':' {
-			return nil, false
+			return Attrs{}, false
 		}
 		s.pos++
 		if !s.skipSpace() {
-			return nil, false
+			return Attrs{}, false
 		}
 		v, ok := s.value(0)
-		if !ok {
-			return nil, false
+		if !ok || !b.add(name, v) {
+			return Attrs{}, false
 		}
-		props[name] = v
-		names = append(names, name)
 		if !s.skipSpace() {
-			return nil, false
+			return Attrs{}, false
 		}
 		c := s.data[s.pos]
 		s.pos++
@@ -560,11 +577,10 @@ func (s *scanner) properties() (geojson.Properties, bool) {
 			break
 		}
 		if c != ',' {
-			return nil, false
+			return Attrs{}, false
 		}
 	}
-	s.propHint, s.propNames = len(props), names
-	return props, true
+	return b.done(), true
 }
 
 // value reads any JSON value as encoding/json decodes it into an interface

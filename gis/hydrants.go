@@ -58,6 +58,19 @@ func ReadHydrants(path string, s HydrantSchema) ([]Hydrant, []Problem, error) {
 // (Needed 0, so the needed flow comes from elsewhere); zero or blank means
 // not given. It returns an error if no hydrant is usable.
 func HydrantsFromCollection(file string, fc *geojson.FeatureCollection, s HydrantSchema) ([]Hydrant, []Problem, error) {
+	return hydrantsFrom(fromLonLat(file, fc), s)
+}
+
+// HydrantsFromLayer is HydrantsFromCollection for a layer in any
+// coordinate system.
+func HydrantsFromLayer(c *Collection, s HydrantSchema) ([]Hydrant, []Problem, error) {
+	return hydrantsFrom(c.lonLatLayer(), s)
+}
+
+// hydrantsFrom reads the hydrants of a lon/lat layer (see
+// HydrantsFromCollection).
+func hydrantsFrom(c *Collection, s HydrantSchema) ([]Hydrant, []Problem, error) {
+	file, fc := c.File, c.Features
 	u, err := flowUnit(s.NeededFlowUnit, "hydrants.fields.needed_flow_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -68,7 +81,7 @@ func HydrantsFromCollection(file string, fc *geojson.FeatureCollection, s Hydran
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(c, []fieldSpec{
 		{key: "hydrants.fields.id", prop: s.ID, isID: true},
 		{key: "hydrants.fields.needed_flow", prop: s.NeededFlow},
 		{key: "hydrants.fields.zone", prop: s.Zone},
@@ -82,20 +95,21 @@ func HydrantsFromCollection(file string, fc *geojson.FeatureCollection, s Hydran
 	usable := 0
 	for i, f := range fc.Features {
 		h := Hydrant{Index: i + 1, File: file, Node: -1, Usable: true}
+		a := c.Attrs(i)
 		add := func(field, what, action string) {
 			probs = append(probs, Problem{File: file, Feature: h.Index, ID: h.ID, Field: field, What: what, Action: action})
 		}
 		if s.ID != "" {
-			h.ID = allocFeatureID(f, s.ID, seen, h.Index, add, "hydrant")
+			h.ID = allocFeatureID(f, a, s.ID, seen, h.Index, add, "hydrant")
 		}
 		if what := hydPoint(f.Geometry, &h.At); what != "" {
 			h.Usable, h.Reason = false, what
 			add("geometry", what, "hydrant left out; supply a Point in lon/lat (WGS84)")
 		}
-		if v, _, ok := lookup(f.Properties, s.Zone); ok {
+		if v, _, ok := lookup(a, s.Zone); ok {
 			h.Zone = idString(v)
 		}
-		h.Needed = hydNeeded(f.Properties, s.NeededFlow, u, unitName, add)
+		h.Needed = hydNeeded(a, s.NeededFlow, u, unitName, add)
 		if h.Usable {
 			usable++
 		}
@@ -126,7 +140,7 @@ func hydPoint(g orb.Geometry, at *orb.Point) string {
 
 // hydNeeded reads the needed fire flow in m³/s, 0 when not given or not
 // usable (reported through add).
-func hydNeeded(props geojson.Properties, prop string, u hydraulics.Flow, unitName string, add func(field, what, action string)) float64 {
+func hydNeeded(props Attrs, prop string, u hydraulics.Flow, unitName string, add func(field, what, action string)) float64 {
 	v, name, ok := lookup(props, prop)
 	if !ok {
 		return 0

@@ -30,6 +30,60 @@ type Collection struct {
 	Z        [][]float64 // per feature, Z per vertex; nil when the layer has none
 	Fields   []FieldInfo // declared fields (shapefile, GeoPackage); nil for GeoJSON
 	Note     string      // how the CRS was settled, when it was not declared
+
+	// attrs are the features' properties (see Attrs), whose Properties
+	// maps are then nil; when attrs is nil, each feature's map holds them.
+	attrs []Attrs
+}
+
+// Attrs returns the properties of feature i (0-based).
+func (c *Collection) Attrs(i int) Attrs {
+	if c.attrs != nil {
+		return c.attrs[i]
+	}
+	return attrsOf(c.Features.Features[i].Properties)
+}
+
+// takeAttrs moves the properties of c's features from their maps into
+// c.attrs, the names in the order given (a layer's declared fields) where a
+// feature has exactly those, sorted otherwise.
+func (c *Collection) takeAttrs(order []string) {
+	c.attrs = make([]Attrs, len(c.Features.Features))
+	var slab []any
+	for i, f := range c.Features.Features {
+		if n := len(order); n > 0 && len(f.Properties) == n {
+			if len(slab) < n {
+				slab = make([]any, max(attrValueSlab, n))
+			}
+			vals, all := slab[:n:n], true
+			for k, name := range order {
+				if vals[k], all = f.Properties[name]; !all {
+					break
+				}
+			}
+			if all {
+				c.attrs[i], slab = Attrs{names: order, vals: vals}, slab[n:]
+				f.Properties = nil
+				continue
+			}
+		}
+		c.attrs[i] = attrsOf(f.Properties)
+		f.Properties = nil
+	}
+}
+
+// lonLatLayer is c with its features in WGS 84 lon/lat (see LonLat) and the
+// same properties.
+func (c *Collection) lonLatLayer() *Collection {
+	if c.CRS.Geographic() {
+		return c
+	}
+	out := *c
+	out.Features, out.CRS = c.LonLat(), CRS84
+	if out.attrs == nil {
+		out.takeAttrs(nil) // the copies' maps are the originals': take them from the copies only
+	}
+	return &out
 }
 
 // FieldInfo is one declared attribute of a layer.
@@ -81,13 +135,25 @@ func FromGeoJSON(file string, fc *geojson.FeatureCollection) *Collection {
 	return &Collection{File: file, Format: FormatGeoJSON, CRS: CRS84, Features: fc}
 }
 
+// fromLonLat wraps a lon/lat collection already in memory with its file
+// name, for the readers that take one (PipesFromCollection and the like).
+func fromLonLat(file string, fc *geojson.FeatureCollection) *Collection {
+	if fc == nil {
+		fc = geojson.NewFeatureCollection()
+	}
+	return &Collection{File: file, Format: FormatGeoJSON, CRS: CRS84, Features: fc}
+}
+
 func openGeoJSON(path string, opt OpenOptions) (*Collection, *CRS, error) {
-	fc, err := ReadCollection(path, opt.Key)
+	fc, attrs, err := readGeoJSON(path, opt.Key)
 	if err != nil {
 		return nil, nil, err
 	}
 	file := filepath.Base(path)
-	c := &Collection{File: file, Format: FormatGeoJSON, Features: fc}
+	c := &Collection{File: file, Format: FormatGeoJSON, Features: fc, attrs: attrs}
+	if attrs == nil {
+		c.takeAttrs(nil)
+	}
 	raw, ok := fc.ExtraMembers["crs"]
 	if !ok || raw == nil {
 		return c, nil, nil
@@ -135,9 +201,12 @@ func openShapefile(path string) (*Collection, *CRS, error) {
 		return nil, nil, err
 	}
 	c := &Collection{File: filepath.Base(path), Format: FormatShapefile, Features: l.Features, Z: l.Z}
+	names := make([]string, 0, len(l.Fields))
 	for _, f := range l.Fields {
 		c.Fields = append(c.Fields, FieldInfo{Name: f.Name, Type: fmt.Sprintf("%c(%d,%d)", f.Type, f.Length, f.Decimals)})
+		names = append(names, f.Name)
 	}
+	c.takeAttrs(names)
 	if strings.TrimSpace(l.PRJ) == "" {
 		return c, nil, nil
 	}
@@ -154,9 +223,12 @@ func openGeoPackage(path string, opt OpenOptions) (*Collection, *CRS, error) {
 		return nil, nil, err
 	}
 	c := &Collection{File: filepath.Base(path) + ":" + l.Table, Format: FormatGeoPackage, Features: l.Features, Z: l.Z}
+	names := make([]string, 0, len(l.Fields))
 	for _, f := range l.Fields {
 		c.Fields = append(c.Fields, FieldInfo{Name: f.Name, Type: f.Type})
+		names = append(names, f.Name)
 	}
+	c.takeAttrs(names)
 	srs := l.SRS
 	switch {
 	case srs.ID == 0 || srs.ID == -1:
@@ -270,7 +342,7 @@ func TransformGeometry(g orb.Geometry, fn func(x, y float64) (float64, float64))
 // geodesic for a geographic layer and planar in the layer's linear unit for
 // a projected one (a grid length), unless the length field is mapped.
 func PipesFromLayer(c *Collection, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
-	pipes, probs, err := PipesFromCollection(c.File, c.LonLat(), s, analysisYear)
+	pipes, probs, err := pipesFrom(c.lonLatLayer(), s, analysisYear)
 	if err != nil || c.CRS.Geographic() {
 		return pipes, probs, err
 	}

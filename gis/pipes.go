@@ -88,6 +88,12 @@ func ReadPipes(path string, s PipeSchema, analysisYear int) ([]Pipe, []Problem, 
 // error about the data the pipes and problems found so far are returned too.
 // analysisYear bounds install years: later years are treated as unknown.
 func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
+	return pipesFrom(fromLonLat(file, fc), s, analysisYear)
+}
+
+// pipesFrom reads the pipes of a lon/lat layer (see PipesFromCollection).
+func pipesFrom(c *Collection, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
+	file, fc := c.File, c.Features
 	dUnit, err := diameterUnit(s.DiameterUnit, "pipes.fields.diameter_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -102,7 +108,7 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(c, []fieldSpec{
 		{key: "pipes.fields.id", prop: s.ID, required: true, isID: true},
 		{key: "pipes.fields.diameter", prop: s.Diameter, required: true},
 		{key: "pipes.fields.material", prop: s.Material, required: true},
@@ -122,7 +128,7 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 		closed = []string{"closed"}
 	}
 	r := &pipeReader{file: file, s: s, dUnit: dUnit, lUnit: lUnit, year: analysisYear, closed: closed}
-	pipes, probs := r.pipes(fc.Features, probs)
+	pipes, probs := r.pipes(c, probs)
 	usable := 0
 	for i := range pipes {
 		if pipes[i].Usable {
@@ -138,11 +144,12 @@ func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchem
 
 // pipes maps the features on GOMAXPROCS goroutines, each with a reader of
 // its own (r with no seen map; mapFeatures finds the repeated ids).
-func (r *pipeReader) pipes(features []*geojson.Feature, before []Problem) ([]Pipe, []Problem) {
+func (r *pipeReader) pipes(c *Collection, before []Problem) ([]Pipe, []Problem) {
+	features := c.Features.Features
 	pipes := make([]Pipe, len(features))
 	probs := mapFeatures(len(features), before, func(i int, probs *[]Problem) (string, string) {
 		cr := *r
-		cr.probs = *probs
+		cr.probs, cr.a = *probs, c.Attrs(i)
 		pipes[i] = cr.pipe(i+1, features[i])
 		*probs = cr.probs
 		return pipes[i].ID, cr.idName
@@ -164,6 +171,7 @@ type pipeReader struct {
 	probs  []Problem
 	seen   map[string]int // id → first feature index; nil: pipes finds repeats
 	idName string         // with seen nil, the member the last pipe's id came from
+	a      Attrs          // the properties of the feature being read
 }
 
 func (r *pipeReader) add(p *Pipe, field, what, action string) {
@@ -188,13 +196,13 @@ func (r *pipeReader) pipe(index int, f *geojson.Feature) Pipe {
 	r.installYear(&p, f)
 	r.measuredC(&p, f)
 	r.status(&p, f)
-	if v, _, ok := lookup(f.Properties, r.s.Zone); ok {
+	if v, _, ok := lookup(r.a, r.s.Zone); ok {
 		p.Zone = idString(v)
 	}
-	if v, _, ok := lookup(f.Properties, r.s.Street); ok {
+	if v, _, ok := lookup(r.a, r.s.Street); ok {
 		p.Street = idString(v)
 	}
-	if v, _, ok := lookup(f.Properties, r.s.Surface); ok {
+	if v, _, ok := lookup(r.a, r.s.Surface); ok {
 		p.Surface = idString(v)
 	}
 	r.length(&p, f)
@@ -205,7 +213,7 @@ func (r *pipeReader) pipe(index int, f *geojson.Feature) Pipe {
 }
 
 func (r *pipeReader) id(p *Pipe, f *geojson.Feature) {
-	v, name, ok := lookup(f.Properties, r.s.ID)
+	v, name, ok := lookup(r.a, r.s.ID)
 	if !ok {
 		v, name = f.ID, "id"
 	}
@@ -323,7 +331,7 @@ func distinctVertices(ls orb.LineString) int {
 }
 
 func (r *pipeReader) diameter(p *Pipe, f *geojson.Feature) {
-	v, name, _ := lookup(f.Properties, r.s.Diameter)
+	v, name, _ := lookup(r.a, r.s.Diameter)
 	if name == "" {
 		name = r.s.Diameter
 	}
@@ -347,7 +355,7 @@ func (r *pipeReader) diameter(p *Pipe, f *geojson.Feature) {
 }
 
 func (r *pipeReader) material(p *Pipe, f *geojson.Feature) {
-	v, name, _ := lookup(f.Properties, r.s.Material)
+	v, name, _ := lookup(r.a, r.s.Material)
 	p.Material = idString(v)
 	if p.Material == "" {
 		if name == "" {
@@ -359,7 +367,7 @@ func (r *pipeReader) material(p *Pipe, f *geojson.Feature) {
 }
 
 func (r *pipeReader) installYear(p *Pipe, f *geojson.Feature) {
-	v, name, _ := lookup(f.Properties, r.s.InstallYear)
+	v, name, _ := lookup(r.a, r.s.InstallYear)
 	if name == "" {
 		name = r.s.InstallYear
 	}
@@ -382,7 +390,7 @@ func (r *pipeReader) installYear(p *Pipe, f *geojson.Feature) {
 }
 
 func (r *pipeReader) measuredC(p *Pipe, f *geojson.Feature) {
-	v, name, ok := lookup(f.Properties, r.s.MeasuredC)
+	v, name, ok := lookup(r.a, r.s.MeasuredC)
 	if !ok {
 		return
 	}
@@ -400,7 +408,7 @@ func (r *pipeReader) measuredC(p *Pipe, f *geojson.Feature) {
 }
 
 func (r *pipeReader) status(p *Pipe, f *geojson.Feature) {
-	v, name, ok := lookup(f.Properties, r.s.Status)
+	v, name, ok := lookup(r.a, r.s.Status)
 	if !ok {
 		return
 	}
@@ -437,7 +445,7 @@ func (r *pipeReader) length(p *Pipe, f *geojson.Feature) {
 	if p.Line != nil {
 		p.Length, p.LengthSource = GeodesicLength(p.Line), LengthGeodesic
 	}
-	v, name, ok := lookup(f.Properties, r.s.Length)
+	v, name, ok := lookup(r.a, r.s.Length)
 	if ok {
 		r.lengthField(p, v, name)
 	}

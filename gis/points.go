@@ -59,6 +59,17 @@ func ReadSources(path string, s SourceSchema) ([]Point, []Problem, error) {
 // SourcesFromCollection reads sources: points with the hydraulic grade they
 // hold (Value in metres above the datum).
 func SourcesFromCollection(file string, fc *geojson.FeatureCollection, s SourceSchema) ([]Point, []Problem, error) {
+	return sourcesFrom(fromLonLat(file, fc), s)
+}
+
+// SourcesFromLayer is SourcesFromCollection for a layer in any coordinate
+// system.
+func SourcesFromLayer(c *Collection, s SourceSchema) ([]Point, []Problem, error) {
+	return sourcesFrom(c.lonLatLayer(), s)
+}
+
+func sourcesFrom(c *Collection, s SourceSchema) ([]Point, []Problem, error) {
+	file := c.File
 	u, err := lengthUnit(s.GradeUnit, "sources.fields.grade_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -66,11 +77,11 @@ func SourcesFromCollection(file string, fc *geojson.FeatureCollection, s SourceS
 	k := pointKind{key: "sources", noun: "source", id: s.ID, name: s.Name, value: s.Grade,
 		valueKey: "sources.fields.grade", label: "grade", unit: float64(u), unitName: unitLabel(s.GradeUnit, "ft"),
 		check: elevationCheck(u)}
-	pts, probs, err := readPoints(file, fc, k)
+	pts, probs, err := readPoints(c, k)
 	if err != nil {
 		return pts, probs, err
 	}
-	more, err := readSourceControls(file, fc, s, pts)
+	more, err := readSourceControls(c, s, pts)
 	return pts, append(probs, more...), err
 }
 
@@ -86,6 +97,17 @@ func ReadDemands(path string, s DemandSchema) ([]Point, []Problem, error) {
 // DemandsFromCollection reads demand points: average-day withdrawal (Value
 // in m³/s). A negative demand leaves the point out; zero is kept.
 func DemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandSchema) ([]Point, []Problem, error) {
+	return demandsFrom(fromLonLat(file, fc), s)
+}
+
+// DemandsFromLayer is DemandsFromCollection for a layer in any coordinate
+// system.
+func DemandsFromLayer(c *Collection, s DemandSchema) ([]Point, []Problem, error) {
+	return demandsFrom(c.lonLatLayer(), s)
+}
+
+func demandsFrom(c *Collection, s DemandSchema) ([]Point, []Problem, error) {
+	file := c.File
 	u, err := flowUnit(s.DemandUnit, "demands.fields.demand_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -98,7 +120,7 @@ func DemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandS
 			}
 			return ""
 		}}
-	return readPoints(file, fc, k)
+	return readPoints(c, k)
 }
 
 // ReadElevations reads a GeoJSON elevation-point layer; see [ElevationsFromCollection].
@@ -113,6 +135,17 @@ func ReadElevations(path string, s ElevationSchema) ([]Point, []Problem, error) 
 // ElevationsFromCollection reads ground-elevation points (Value in metres).
 // Values outside MinElevation..MaxElevation (no-data codes) are left out.
 func ElevationsFromCollection(file string, fc *geojson.FeatureCollection, s ElevationSchema) ([]Point, []Problem, error) {
+	return elevationsFrom(fromLonLat(file, fc), s)
+}
+
+// ElevationsFromLayer is ElevationsFromCollection for a layer in any
+// coordinate system.
+func ElevationsFromLayer(c *Collection, s ElevationSchema) ([]Point, []Problem, error) {
+	return elevationsFrom(c.lonLatLayer(), s)
+}
+
+func elevationsFrom(c *Collection, s ElevationSchema) ([]Point, []Problem, error) {
+	file := c.File
 	u, err := lengthUnit(s.ElevationUnit, "elevations.fields.elevation_unit")
 	if err != nil {
 		return nil, nil, &FieldError{File: file, Err: err}
@@ -120,7 +153,7 @@ func ElevationsFromCollection(file string, fc *geojson.FeatureCollection, s Elev
 	k := pointKind{key: "elevations", noun: "elevation point", value: s.Elevation,
 		valueKey: "elevations.fields.elevation", label: "elevation", unit: float64(u), unitName: unitLabel(s.ElevationUnit, "ft"),
 		check: elevationCheck(u)}
-	return readPoints(file, fc, k)
+	return readPoints(c, k)
 }
 
 func elevationCheck(u hydraulics.Length) func(float64) string {
@@ -140,14 +173,15 @@ func unitLabel(u, def string) string {
 	return u
 }
 
-func readPoints(file string, fc *geojson.FeatureCollection, k pointKind) ([]Point, []Problem, error) {
+func readPoints(c *Collection, k pointKind) ([]Point, []Problem, error) {
+	file, fc := c.File, c.Features
 	if fc == nil || len(fc.Features) == 0 {
 		return nil, nil, &FieldError{File: file, Err: fmt.Errorf("no features; check the config key %s.path", k.key)}
 	}
 	if err := checkCRS(file, fc); err != nil {
 		return nil, nil, err
 	}
-	probs, err := checkFields(file, fc, []fieldSpec{
+	probs, err := checkFields(c, []fieldSpec{
 		{key: k.valueKey, prop: k.value, required: true},
 		{key: k.key + ".fields.id", prop: k.id, isID: true},
 		{key: k.key + ".fields.name", prop: k.name},
@@ -158,7 +192,7 @@ func readPoints(file string, fc *geojson.FeatureCollection, k pointKind) ([]Poin
 	pts := make([]Point, len(fc.Features))
 	probs = mapFeatures(len(fc.Features), probs, func(i int, probs *[]Problem) (string, string) {
 		var field string
-		pts[i], field = readPoint(file, k, i, fc.Features[i], probs)
+		pts[i], field = readPoint(file, k, i, fc.Features[i], c.Attrs(i), probs)
 		return pts[i].ID, field
 	}, func(i int, id, field string, first int) Problem {
 		return Problem{File: file, Feature: i + 1, ID: id, Field: field,
@@ -181,7 +215,7 @@ func readPoints(file string, fc *geojson.FeatureCollection, k pointKind) ([]Poin
 // readPoint maps feature i of a point layer, appending its problems to
 // probs (all but a repeated id, which readPoints finds), and returns it
 // with the member its id came from.
-func readPoint(file string, k pointKind, i int, f *geojson.Feature, probs *[]Problem) (Point, string) {
+func readPoint(file string, k pointKind, i int, f *geojson.Feature, a Attrs, probs *[]Problem) (Point, string) {
 	p := Point{Index: i + 1, File: file, Usable: true}
 	add := func(field, what, action string) {
 		*probs = append(*probs, Problem{File: file, Feature: p.Index, ID: p.ID, Field: field, What: what, Action: action})
@@ -194,13 +228,13 @@ func readPoint(file string, k pointKind, i int, f *geojson.Feature, probs *[]Pro
 	}
 	var idField string
 	if k.id != "" {
-		v, name, ok := lookup(f.Properties, k.id)
+		v, name, ok := lookup(a, k.id)
 		if !ok {
 			v, name = f.ID, "id"
 		}
 		p.ID, idField = idString(v), name
 	}
-	if v, _, ok := lookup(f.Properties, k.name); ok {
+	if v, _, ok := lookup(a, k.name); ok {
 		p.Name = idString(v)
 	}
 	switch g := f.Geometry.(type) {
@@ -215,7 +249,7 @@ func readPoint(file string, k pointKind, i int, f *geojson.Feature, probs *[]Pro
 	default:
 		drop("geometry", fmt.Sprintf("geometry is %s, want Point", g.GeoJSONType()), "supply a Point in lon/lat (WGS84)")
 	}
-	v, name, _ := lookup(f.Properties, k.value)
+	v, name, _ := lookup(a, k.value)
 	if name == "" {
 		name = k.value
 	}

@@ -292,6 +292,7 @@ func TestReadPipesChunkedAsOneReader(t *testing.T) {
 		closed: []string{"closed"}, seen: map[string]int{}}
 	want := make([]Pipe, len(fc.Features))
 	for i, f := range fc.Features {
+		ref.a = attrsOf(f.Properties)
 		want[i] = ref.pipe(i+1, f)
 	}
 	if !reflect.DeepEqual(pipes, want) {

@@ -68,7 +68,8 @@ type fieldSpec struct {
 // checkFields returns a fatal error for a required field that is not mapped
 // or present in no feature, and a Problem for an optional one present in no
 // feature.
-func checkFields(file string, fc *geojson.FeatureCollection, specs []fieldSpec) ([]Problem, error) {
+func checkFields(c *Collection, specs []fieldSpec) ([]Problem, error) {
+	file, fc := c.File, c.Features
 	var probs []Problem
 	for _, s := range specs {
 		if s.prop == "" {
@@ -78,8 +79,8 @@ func checkFields(file string, fc *geojson.FeatureCollection, specs []fieldSpec) 
 			continue
 		}
 		found := false
-		for _, f := range fc.Features {
-			if _, _, ok := lookup(f.Properties, s.prop); ok || (s.isID && f.ID != nil) {
+		for i, f := range fc.Features {
+			if _, _, ok := lookup(c.Attrs(i), s.prop); ok || (s.isID && f.ID != nil) {
 				found = true
 				break
 			}
@@ -98,28 +99,9 @@ func checkFields(file string, fc *geojson.FeatureCollection, specs []fieldSpec) 
 	return probs, nil
 }
 
-// lookup finds property name in p: exactly, or else the one property whose
-// name matches case-insensitively. It returns the value and the name found.
-func lookup(p geojson.Properties, name string) (any, string, bool) {
-	if name == "" {
-		return nil, "", false
-	}
-	if v, ok := p[name]; ok {
-		return v, name, true
-	}
-	match := ""
-	n := 0
-	for k := range p {
-		if strings.EqualFold(k, name) {
-			match = k
-			n++
-		}
-	}
-	if n == 1 {
-		return p[match], match, true
-	}
-	return nil, "", false
-}
+// lookup finds property name in a: exactly, or else the one property
+// whose name matches case-insensitively (see Attrs.Lookup).
+func lookup(a Attrs, name string) (any, string, bool) { return a.Lookup(name) }
 
 // lengthUnit returns the length of one unit named u ("ft" default, "m").
 func lengthUnit(u, key string) (hydraulics.Length, error) {

@@ -251,7 +251,7 @@ func (r *result) ageReadLined(c *gis.Collection) []gis.Problem {
 		if i >= len(c.Features.Features) {
 			break
 		}
-		v, name := layerFlowLookup(c.Features.Features[i].Properties, field)
+		v, name := layerFlowLookup(c.Attrs(i), field)
 		year, why := ageLiningYear(v, p.InstallYear, cfg.AnalysisYear)
 		if why != "" {
 			probs = append(probs, gis.Problem{File: c.File, Feature: p.Index, ID: p.ID, Field: name,

@@ -53,7 +53,7 @@ func readHydrants(in *inputs, r *result) error {
 	if err != nil {
 		return err
 	}
-	hs, probs, err := gis.HydrantsFromCollection(c.File, c.LonLat(), cfg.hydrantSchema())
+	hs, probs, err := gis.HydrantsFromLayer(c, cfg.hydrantSchema())
 	r.problems = append(r.problems, probs...)
 	if err != nil {
 		return err
@@ -64,7 +64,7 @@ func readHydrants(in *inputs, r *result) error {
 		fixed[s.Node] = true
 	}
 	r.problems = append(r.problems, gis.AttachHydrants(r.topo, hs, fixed, hydraulics.Length(cfg.si(cfg.hydrantSearch())))...)
-	classes, fields, probs := needLandUse(c.File, c.Features, cfg.Hydrants.Fields.LandUse)
+	classes, fields, probs := needLandUse(c, cfg.Hydrants.Fields.LandUse)
 	r.problems = append(r.problems, probs...)
 	for k, h := range hs {
 		fh := fireHydrant{Hydrant: h}

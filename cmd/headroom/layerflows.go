@@ -97,8 +97,7 @@ func (r *result) layerFlowRead(c *gis.Collection) ([]hydraulics.Flow, error) {
 		if !p.Usable || i >= len(c.Features.Features) {
 			continue
 		}
-		props := c.Features.Features[i].Properties
-		v, name := layerFlowLookup(props, field)
+		v, name := layerFlowLookup(c.Attrs(i), field)
 		x, why := layerFlowNumber(v)
 		if why != "" && !p.Closed {
 			bad++
@@ -133,20 +132,11 @@ func layerFlowUnitName(cfg *Config) string {
 }
 
 // layerFlowLookup returns the property named name, or the one property
-// whose name matches it ignoring case, and the name it was found under.
-func layerFlowLookup(props map[string]any, name string) (any, string) {
-	if v, ok := props[name]; ok {
-		return v, name
-	}
-	var match string
-	n := 0
-	for k := range props { // the result does not depend on the order: only a unique match is taken
-		if strings.EqualFold(k, name) {
-			match, n = k, n+1
-		}
-	}
-	if n == 1 {
-		return props[match], match
+// whose name matches it ignoring case, and the name it was found under
+// (name itself when there is none).
+func layerFlowLookup(a gis.Attrs, name string) (any, string) {
+	if v, found, ok := a.Lookup(name); ok {
+		return v, found
 	}
 	return nil, name
 }

@@ -8,8 +8,6 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/paulmach/orb/geojson"
-
 	"headroom/gis"
 	"headroom/hydraulics"
 )
@@ -148,50 +146,32 @@ func needFind(table []needClass, class string) (needClass, bool) {
 	return needClass{}, false
 }
 
-// needLandUse reads the land-use class of each feature of fc from the
-// property prop (exactly, or else the one property that matches it without
-// regard to case, as every mapped field is found): the class and the
-// property name found, "" where the feature has none. A prop mapped but in
-// no feature is reported once, as the other mapped fields are.
-func needLandUse(file string, fc *geojson.FeatureCollection, prop string) (classes, fields []string, probs []gis.Problem) {
-	if prop == "" || fc == nil {
+// needLandUse reads the land-use class of each feature of layer c from
+// the property prop (exactly, or else the one property that matches it
+// without regard to case, as every mapped field is found): the class and
+// the property name found, "" where the feature has none. A prop mapped but
+// in no feature is reported once, as the other mapped fields are.
+func needLandUse(c *gis.Collection, prop string) (classes, fields []string, probs []gis.Problem) {
+	if prop == "" || c == nil || c.Features == nil {
 		return nil, nil, nil
 	}
-	classes = make([]string, len(fc.Features))
-	fields = make([]string, len(fc.Features))
+	n := len(c.Features.Features)
+	classes, fields = make([]string, n), make([]string, n)
 	found := false
-	for i, f := range fc.Features {
+	for i, f := range c.Features.Features {
 		if f == nil {
 			continue
 		}
-		if v, name, ok := needLookup(f.Properties, prop); ok {
+		if v, name, ok := c.Attrs(i).Lookup(prop); ok {
 			found = true
 			classes[i], fields[i] = needClassText(v), name
 		}
 	}
 	if !found {
-		probs = append(probs, gis.Problem{File: file, Field: prop, What: "mapped field is in no feature",
+		probs = append(probs, gis.Problem{File: c.File, Field: prop, What: "mapped field is in no feature",
 			Action: "field ignored; check the config key hydrants.fields.land_use"})
 	}
 	return classes, fields, probs
-}
-
-// needLookup finds property name in p: exactly, or else the one property
-// whose name matches it without regard to case.
-func needLookup(p geojson.Properties, name string) (any, string, bool) {
-	if v, ok := p[name]; ok {
-		return v, name, true
-	}
-	var match []string
-	for k := range p {
-		if strings.EqualFold(k, name) {
-			match = append(match, k)
-		}
-	}
-	if len(match) != 1 {
-		return nil, "", false
-	}
-	return p[match[0]], match[0], true
 }
 
 // needClassText is a land-use value as text: a zoning code may be stored

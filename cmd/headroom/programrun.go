@@ -93,7 +93,7 @@ func (r *result) progJoinBreaks(in *inputs) joined {
 		return joined{err: err}
 	}
 	f := cfg.Breaks.Fields
-	bs, probs, err := gis.BreaksFromCollection(c.File, c.LonLat(), gis.BreakSchema{ID: f.ID, Date: f.Date, PipeID: f.PipeID, AnalysisYear: cfg.AnalysisYear})
+	bs, probs, err := gis.BreaksFromLayer(c, gis.BreakSchema{ID: f.ID, Date: f.Date, PipeID: f.PipeID, AnalysisYear: cfg.AnalysisYear})
 	if err != nil {
 		return joined{probs: probs, err: err}
 	}
@@ -171,7 +171,7 @@ func (r *result) progReadFacilities(in *inputs) error {
 	if err != nil {
 		return err
 	}
-	fs, probs, err := gis.FacilitiesFromCollection(c.File, c.LonLat(), gis.FacilitySchema{ID: cfg.Facilities.Fields.ID, Kind: cfg.Facilities.Fields.Kind})
+	fs, probs, err := gis.FacilitiesFromLayer(c, gis.FacilitySchema{ID: cfg.Facilities.Fields.ID, Kind: cfg.Facilities.Fields.Kind})
 	r.problems = append(r.problems, probs...)
 	if err != nil {
 		return err

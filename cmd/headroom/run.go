@@ -309,21 +309,21 @@ func (r *result) readPipes(c *gis.Collection) ([]gis.Problem, error) {
 }
 
 func (r *result) readSources(c *gis.Collection) (probs []gis.Problem, err error) {
-	r.sources, probs, err = gis.SourcesFromCollection(c.File, c.LonLat(), r.cfg.sourceSchema())
+	r.sources, probs, err = gis.SourcesFromLayer(c, r.cfg.sourceSchema())
 	return probs, err
 }
 
 func (r *result) readDemands(c *gis.Collection) (probs []gis.Problem, err error) {
 	if r.cfg.Demands.Allocation == allocateAreas {
-		r.areas, probs, err = gis.AreaDemandsFromCollection(c.File, areaLonLat(c), r.cfg.demandSchema())
+		r.areas, probs, err = gis.AreaDemandsFromLayer(c, areaLonLat(c), r.cfg.demandSchema())
 	} else {
-		r.demands, probs, err = gis.DemandsFromCollection(c.File, c.LonLat(), r.cfg.demandSchema())
+		r.demands, probs, err = gis.DemandsFromLayer(c, r.cfg.demandSchema())
 	}
 	return probs, err
 }
 
 func (r *result) readElevations(c *gis.Collection) (probs []gis.Problem, err error) {
-	r.elevations, probs, err = gis.ElevationsFromCollection(c.File, c.LonLat(), r.cfg.elevationSchema())
+	r.elevations, probs, err = gis.ElevationsFromLayer(c, r.cfg.elevationSchema())
 	return probs, err
 }
 

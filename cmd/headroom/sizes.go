@@ -273,7 +273,7 @@ func (r *result) sizeLayerClasses(c *gis.Collection) (classes, fields []string) 
 		if i >= len(c.Features.Features) || c.Features.Features[i] == nil {
 			continue
 		}
-		v, name := layerFlowLookup(c.Features.Features[i].Properties, prop)
+		v, name := layerFlowLookup(c.Attrs(i), prop)
 		fields[i] = name
 		if v != nil {
 			found = true
