@@ -108,24 +108,36 @@ func TestOpenLayerAttrsAsReference(t *testing.T) {
 	if &c.attrs[0].names[0] != &c.attrs[1].names[0] {
 		t.Error("two features with the same names keep a slice each")
 	}
-	shp, err := ReadShapefile("testdata/shp/pipes_2229.shp")
-	if err != nil {
-		t.Fatal(err)
+	references := []struct {
+		path string
+		read func(string) (*geojson.FeatureCollection, error)
+	}{
+		{"testdata/shp/pipes_2229.shp", func(p string) (*geojson.FeatureCollection, error) {
+			l, err := ReadShapefile(p)
+			if err != nil {
+				return nil, err
+			}
+			return l.Features, nil
+		}},
+		{"testdata/gpkg/mains_2229.gpkg", func(p string) (*geojson.FeatureCollection, error) {
+			l, err := ReadGeoPackage(p, "")
+			if err != nil {
+				return nil, err
+			}
+			return l.Features, nil
+		}},
 	}
-	c, err = OpenLayer("testdata/shp/pipes_2229.shp", OpenOptions{Key: "test"})
-	if err != nil {
-		t.Fatal(err)
+	for _, ref := range references {
+		want, err := ref.read(ref.path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c, err := OpenLayer(ref.path, OpenOptions{Key: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkAttrs(t, ref.path, c, want.Features)
 	}
-	checkAttrs(t, "pipes_2229.shp", c, shp.Features.Features)
-	gp, err := ReadGeoPackage("testdata/gpkg/mains_2229.gpkg", "")
-	if err != nil {
-		t.Fatal(err)
-	}
-	c, err = OpenLayer("testdata/gpkg/mains_2229.gpkg", OpenOptions{Key: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	checkAttrs(t, "mains_2229.gpkg", c, gp.Features.Features)
 }
 
 func checkAttrs(t *testing.T, name string, c *Collection, want []*geojson.Feature) {
