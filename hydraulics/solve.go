@@ -516,18 +516,13 @@ func (s *gga) step(refactor bool) error {
 			s.rhs[k] = -s.demand[i]
 		}
 	}
+	forPipeRanges(len(s.solved), func(lo, hi int) { s.losses(lo, hi, refactor) })
 	for j, ok := range s.solved {
 		if !ok {
 			continue
 		}
-		h, p := s.lossAndConductance(j, s.q[j])
-		if refactor {
-			s.p[j] = p
-		} else {
-			p = s.p[j]
-		}
-		s.y[j] = p * h
-		carry := s.q[j] - p*h // Q − y
+		p := s.p[j]
+		carry := s.q[j] - s.y[j] // Q − y
 		a, b := s.ua[j], s.ub[j]
 		if a >= 0 {
 			s.rhs[a] -= carry // flow leaves a
@@ -570,6 +565,26 @@ func (s *gga) step(refactor bool) error {
 		}
 	}
 	return nil
+}
+
+// losses sets y_j = p_j·h_j(Q_j) for the solved pipes j in [lo, hi), and
+// with refactor the conductances p_j = 1/h'_j(Q_j) as well (a chord step
+// keeps the last ones). It writes only its own pipes' entries, so ranges
+// may run at once (step runs them on the cores through forPipeRanges: the
+// fractional powers are most of a step's own work).
+func (s *gga) losses(lo, hi int, refactor bool) {
+	for j := lo; j < hi; j++ {
+		if !s.solved[j] {
+			continue
+		}
+		h, p := s.lossAndConductance(j, s.q[j])
+		if refactor {
+			s.p[j] = p
+		} else {
+			p = s.p[j]
+		}
+		s.y[j] = p * h
+	}
 }
 
 // assemble adds pipe j's conductance p to the head matrix (at the
