@@ -28,14 +28,14 @@ const version = "0.8.0"
 // part of a shapefile) as soon as it has written them, followed by
 // manifest.json, written last with those SHA-256s: each is of the bytes
 // that are then renamed into place. The hashes are taken while the other
-// outputs are still being written, and the inputs' since the layers were
-// read (see hashInputsAhead), so that the manifest does not read two
-// gigabytes alone at the end of a large run.
+// outputs are still being written, and the inputs' from now on, so that
+// the manifest does not read two gigabytes alone at the end of a large run.
 func (r *result) withManifest(outs []output) []output {
-	h := &stagedHashes{outs: map[string]report.FileRecord{}, inputs: r.inputsHashed}
-	if h.inputs == nil {
-		h.inputs = r.hashInputsAhead()
-	}
+	h := &stagedHashes{outs: map[string]report.FileRecord{}, inputsDone: make(chan struct{})}
+	go func() {
+		defer close(h.inputsDone)
+		h.inputs, h.inputsErr = r.inputRecords(r.in)
+	}()
 	hashed := make([]output, len(outs))
 	for k, o := range outs {
 		hashed[k] = output{o.name, func(path string) error {
@@ -55,38 +55,13 @@ func (r *result) withManifest(outs []output) []output {
 }
 
 // stagedHashes are the SHA-256 records of the staged outputs, by file
-// name, and of the inputs.
+// name, and of the inputs once inputsDone is closed.
 type stagedHashes struct {
-	mu     sync.Mutex
-	outs   map[string]report.FileRecord
-	inputs *pendingInputs
-}
-
-// pendingInputs is the inputs' records (inputRecords) being made on
-// another goroutine; wait gives them, as often as asked.
-type pendingInputs struct {
-	done chan struct{} // closed once recs and err are set
-	recs []report.FileRecord
-	err  error
-}
-
-func (p *pendingInputs) wait() ([]report.FileRecord, error) {
-	<-p.done
-	return p.recs, p.err
-}
-
-// hashInputsAhead starts hashing the inputs (inputRecords) on a goroutine
-// of its own. analyse starts it once the layers are read, so that the
-// half-gigabyte of a million-segment run's inputs is hashed while the
-// stages that leave a core idle (snapping, solving, the program) run, not
-// in the writing stage, which keeps both cores busy.
-func (r *result) hashInputsAhead() *pendingInputs {
-	p := &pendingInputs{done: make(chan struct{})}
-	go func() {
-		defer close(p.done)
-		p.recs, p.err = r.inputRecords(r.in)
-	}()
-	return p
+	mu         sync.Mutex
+	outs       map[string]report.FileRecord
+	inputsDone chan struct{}
+	inputs     []report.FileRecord
+	inputsErr  error
 }
 
 // hashStaged records the hash of every file output name produced in stage.
@@ -121,7 +96,8 @@ func (r *result) manifest(stage string, outs []output, h *stagedHashes) (*report
 		Config: cfgMap, Cautions: cautions, GoVersion: runtime.Version(), Platform: runtime.GOOS + "/" + runtime.GOARCH,
 		ConfigFile: r.cfg.file,
 	}
-	if m.Inputs, err = h.inputs.wait(); err != nil {
+	<-h.inputsDone
+	if m.Inputs, err = h.inputs, h.inputsErr; err != nil {
 		return nil, err
 	}
 	for _, a := range r.accounts() {

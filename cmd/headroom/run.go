@@ -139,9 +139,8 @@ type result struct {
 	cure        *hydraulics.UpsizeResult
 	cureHydrant []int
 
-	prog         *progResult    // the replacement program (program.go)
-	breaksAhead  *pendingBreaks // the break layer read and joined while the network is solved (progStartBreaks)
-	inputsHashed *pendingInputs // the inputs' records, made while the stages after reading run (hashInputsAhead)
+	prog        *progResult    // the replacement program (program.go)
+	breaksAhead *pendingBreaks // the break layer read and joined while the network is solved (progStartBreaks)
 
 	progress *progress // the stages on stderr; nil reports nothing
 	in       *inputs   // what was read, for the manifest
@@ -169,7 +168,6 @@ func analyse(in *inputs) (*result, error) {
 	}
 	reading.add(len(r.pipes) + len(r.sources) + len(r.demands) + len(r.areas) + len(r.elevations))
 	reading.end(fmt.Sprintf("%d pipes", len(r.pipes)))
-	r.inputsHashed = r.hashInputsAhead()
 	snapping := r.progress.begin("snapping", "pipes", 0)
 	topo, probs := gis.Snap(r.pipes, hydraulics.Length(cfg.si(cfg.snapTolerance())))
 	r.topo = topo
