@@ -177,7 +177,7 @@ func ReadAreaDemands(path string, s DemandSchema) ([]AreaDemand, []Problem, erro
 // the area out with a Problem; zero is kept. It returns an error if no
 // area is usable.
 func AreaDemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandSchema) ([]AreaDemand, []Problem, error) {
-	return areaDemandsFrom(fromLonLat(file, fc), s)
+	return areaDemandsFrom(FromGeoJSON(file, fc), s)
 }
 
 // AreaDemandsFromLayer is AreaDemandsFromCollection for a layer whose

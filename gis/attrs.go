@@ -37,6 +37,47 @@ func attrsOf(props geojson.Properties) Attrs {
 	return Attrs{names: names, vals: vals}
 }
 
+// attrsOfFeatures returns the properties of features as Attrs, leaving
+// their maps as they are: the names in the order given (a layer's declared
+// fields), shared by the features that have exactly those, and sorted
+// (attrsOf) for the others.
+func attrsOfFeatures(features []*geojson.Feature, order []string) []Attrs {
+	out := make([]Attrs, len(features))
+	var slab []any
+	n := len(order)
+	for i, f := range features {
+		if n > 0 && len(f.Properties) == n {
+			if len(slab) < n {
+				slab = make([]any, max(attrValueSlab, n))
+			}
+			vals, all := slab[:n:n], true
+			for k, name := range order {
+				if vals[k], all = f.Properties[name]; !all {
+					break
+				}
+			}
+			if all {
+				out[i], slab = Attrs{names: order, vals: vals}, slab[n:]
+				continue
+			}
+		}
+		out[i] = attrsOf(f.Properties)
+	}
+	return out
+}
+
+// giveMaps sets each feature's Properties to a map of its attrs, for the
+// callers that want maps (ReadCollection, decodeGeoJSON); attrs nil means
+// the features have theirs already.
+func giveMaps(features []*geojson.Feature, attrs []Attrs) {
+	if attrs == nil {
+		return
+	}
+	for i, f := range features {
+		f.Properties = attrs[i].Map()
+	}
+}
+
 // Len is the number of properties.
 func (a Attrs) Len() int { return len(a.names) }
 

@@ -70,7 +70,7 @@ func ReadBreaks(path string, s BreakSchema) ([]Break, []Problem, error) {
 // Problem says so) and left out otherwise. It returns an error if no break
 // is usable.
 func BreaksFromCollection(file string, fc *geojson.FeatureCollection, s BreakSchema) ([]Break, []Problem, error) {
-	return breaksFrom(fromLonLat(file, fc), s)
+	return breaksFrom(FromGeoJSON(file, fc), s)
 }
 
 // BreaksFromLayer is BreaksFromCollection for a layer in any coordinate

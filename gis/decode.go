@@ -41,11 +41,7 @@ func ReadCollection(path, key string) (*geojson.FeatureCollection, error) {
 	if err != nil {
 		return nil, err
 	}
-	if attrs != nil {
-		for i, f := range fc.Features {
-			f.Properties = attrs[i].Map()
-		}
-	}
+	giveMaps(fc.Features, attrs)
 	return fc, nil
 }
 

@@ -45,7 +45,7 @@ func ReadFacilities(path string, s FacilitySchema) ([]Facility, []Problem, error
 // facility without a usable point is left out (Usable false) with a
 // Problem. It returns an error if no facility is usable.
 func FacilitiesFromCollection(file string, fc *geojson.FeatureCollection, s FacilitySchema) ([]Facility, []Problem, error) {
-	return facilitiesFrom(fromLonLat(file, fc), s)
+	return facilitiesFrom(FromGeoJSON(file, fc), s)
 }
 
 // FacilitiesFromLayer is FacilitiesFromCollection for a layer in any

@@ -78,10 +78,8 @@ func decodeGeoJSON(data []byte, file string) (*geojson.FeatureCollection, error)
 // of at least runBytes.
 func decodeGeoJSONRuns(data []byte, file string, n, runBytes int) (*geojson.FeatureCollection, error) {
 	fc, attrs, err := decodeGeoJSONAttrs(data, file, n, runBytes)
-	if fc != nil && attrs != nil {
-		for i, f := range fc.Features {
-			f.Properties = attrs[i].Map()
-		}
+	if fc != nil {
+		giveMaps(fc.Features, attrs)
 	}
 	return fc, err
 }

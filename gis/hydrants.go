@@ -58,7 +58,7 @@ func ReadHydrants(path string, s HydrantSchema) ([]Hydrant, []Problem, error) {
 // (Needed 0, so the needed flow comes from elsewhere); zero or blank means
 // not given. It returns an error if no hydrant is usable.
 func HydrantsFromCollection(file string, fc *geojson.FeatureCollection, s HydrantSchema) ([]Hydrant, []Problem, error) {
-	return hydrantsFrom(fromLonLat(file, fc), s)
+	return hydrantsFrom(FromGeoJSON(file, fc), s)
 }
 
 // HydrantsFromLayer is HydrantsFromCollection for a layer in any

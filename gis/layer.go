@@ -45,29 +45,10 @@ func (c *Collection) Attrs(i int) Attrs {
 }
 
 // takeAttrs moves the properties of c's features from their maps into
-// c.attrs, the names in the order given (a layer's declared fields) where a
-// feature has exactly those, sorted otherwise.
+// c.attrs (see attrsOfFeatures).
 func (c *Collection) takeAttrs(order []string) {
-	c.attrs = make([]Attrs, len(c.Features.Features))
-	var slab []any
-	for i, f := range c.Features.Features {
-		if n := len(order); n > 0 && len(f.Properties) == n {
-			if len(slab) < n {
-				slab = make([]any, max(attrValueSlab, n))
-			}
-			vals, all := slab[:n:n], true
-			for k, name := range order {
-				if vals[k], all = f.Properties[name]; !all {
-					break
-				}
-			}
-			if all {
-				c.attrs[i], slab = Attrs{names: order, vals: vals}, slab[n:]
-				f.Properties = nil
-				continue
-			}
-		}
-		c.attrs[i] = attrsOf(f.Properties)
+	c.attrs = attrsOfFeatures(c.Features.Features, order)
+	for _, f := range c.Features.Features {
 		f.Properties = nil
 	}
 }
@@ -81,7 +62,7 @@ func (c *Collection) lonLatLayer() *Collection {
 	out := *c
 	out.Features, out.CRS = c.LonLat(), CRS84
 	if out.attrs == nil {
-		out.takeAttrs(nil) // the copies' maps are the originals': take them from the copies only
+		out.attrs = attrsOfFeatures(c.Features.Features, nil)
 	}
 	return &out
 }
@@ -130,18 +111,14 @@ func OpenLayer(path string, opt OpenOptions) (*Collection, error) {
 }
 
 // FromGeoJSON wraps a lon/lat collection already in memory (the built-in
-// demo) as a layer.
+// demo, and the readers' FromCollection forms) as a layer, its properties
+// taken once into Attrs; the features keep their maps. A nil collection is
+// an empty one.
 func FromGeoJSON(file string, fc *geojson.FeatureCollection) *Collection {
-	return &Collection{File: file, Format: FormatGeoJSON, CRS: CRS84, Features: fc}
-}
-
-// fromLonLat wraps a lon/lat collection already in memory with its file
-// name, for the readers that take one (PipesFromCollection and the like).
-func fromLonLat(file string, fc *geojson.FeatureCollection) *Collection {
 	if fc == nil {
 		fc = geojson.NewFeatureCollection()
 	}
-	return &Collection{File: file, Format: FormatGeoJSON, CRS: CRS84, Features: fc}
+	return &Collection{File: file, Format: FormatGeoJSON, CRS: CRS84, Features: fc, attrs: attrsOfFeatures(fc.Features, nil)}
 }
 
 func openGeoJSON(path string, opt OpenOptions) (*Collection, *CRS, error) {

@@ -88,7 +88,7 @@ func ReadPipes(path string, s PipeSchema, analysisYear int) ([]Pipe, []Problem, 
 // error about the data the pipes and problems found so far are returned too.
 // analysisYear bounds install years: later years are treated as unknown.
 func PipesFromCollection(file string, fc *geojson.FeatureCollection, s PipeSchema, analysisYear int) ([]Pipe, []Problem, error) {
-	return pipesFrom(fromLonLat(file, fc), s, analysisYear)
+	return pipesFrom(FromGeoJSON(file, fc), s, analysisYear)
 }
 
 // pipesFrom reads the pipes of a lon/lat layer (see PipesFromCollection).

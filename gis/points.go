@@ -59,7 +59,7 @@ func ReadSources(path string, s SourceSchema) ([]Point, []Problem, error) {
 // SourcesFromCollection reads sources: points with the hydraulic grade they
 // hold (Value in metres above the datum).
 func SourcesFromCollection(file string, fc *geojson.FeatureCollection, s SourceSchema) ([]Point, []Problem, error) {
-	return sourcesFrom(fromLonLat(file, fc), s)
+	return sourcesFrom(FromGeoJSON(file, fc), s)
 }
 
 // SourcesFromLayer is SourcesFromCollection for a layer in any coordinate
@@ -97,7 +97,7 @@ func ReadDemands(path string, s DemandSchema) ([]Point, []Problem, error) {
 // DemandsFromCollection reads demand points: average-day withdrawal (Value
 // in m³/s). A negative demand leaves the point out; zero is kept.
 func DemandsFromCollection(file string, fc *geojson.FeatureCollection, s DemandSchema) ([]Point, []Problem, error) {
-	return demandsFrom(fromLonLat(file, fc), s)
+	return demandsFrom(FromGeoJSON(file, fc), s)
 }
 
 // DemandsFromLayer is DemandsFromCollection for a layer in any coordinate
@@ -135,7 +135,7 @@ func ReadElevations(path string, s ElevationSchema) ([]Point, []Problem, error) 
 // ElevationsFromCollection reads ground-elevation points (Value in metres).
 // Values outside MinElevation..MaxElevation (no-data codes) are left out.
 func ElevationsFromCollection(file string, fc *geojson.FeatureCollection, s ElevationSchema) ([]Point, []Problem, error) {
-	return elevationsFrom(fromLonLat(file, fc), s)
+	return elevationsFrom(FromGeoJSON(file, fc), s)
 }
 
 // ElevationsFromLayer is ElevationsFromCollection for a layer in any
