@@ -171,6 +171,9 @@ type SolverConfig struct {
 	// Flows is "solve" (the default) or "from_layer": take each pipe's
 	// flow from pipes.fields.flow instead of solving (layerflows.go).
 	Flows string `toml:"flows"`
+	// Scenarios lists the steady states to solve: "average_day",
+	// "max_day", "peak_hour" (all three by default; scenariochoice.go).
+	Scenarios []string `toml:"scenarios"`
 }
 
 // WeightsConfig are the relative weights of the sub-scores.
@@ -394,6 +397,7 @@ func (c *Config) validate() error {
 		errs = append(errs, fmt.Errorf("demands.allocation = %q: use %q, %q or %q (polygons)", c.Demands.Allocation, allocateNearestNode, allocateAlongPipe, allocateAreas))
 	}
 	errs = append(errs, c.layerFlowValidate()...)
+	errs = append(errs, c.scenarioValidate()...)
 	errs = append(errs, c.sizeValidate()...)
 	errs = append(errs, c.cureValidate()...)
 	errs = append(errs, c.progValidate()...)

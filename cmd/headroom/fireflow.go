@@ -155,7 +155,16 @@ func (r *result) fireOptions() hydraulics.FireFlowOptions {
 }
 
 // maxDay is the max-day solution, the background of fire flow.
-func (r *result) maxDay() *hydraulics.Solution { return r.scenarios[1].sol }
+// solver.scenarios cannot leave it out while the sweep is on; nil when the
+// run did not solve it.
+func (r *result) maxDay() *hydraulics.Solution {
+	for _, sc := range r.scenarios {
+		if sc.name == "max day" {
+			return sc.sol
+		}
+	}
+	return nil
+}
 
 // nodeZones numbers each node by the zone of the first pipe that reaches it
 // (pipes' zone field); nil when no pipe has a zone, so every junction is

@@ -128,6 +128,9 @@ func (r *result) reportScenarioTable() report.Table {
 	t := report.Table{Caption: "Scenarios solved by the Global Gradient Algorithm (Todini & Pilati): flow change is the last iteration's relative change Σ|ΔQ|/Σ|Q|",
 		Columns: []string{"scenario", "× avg day", "iterations", "flow change", "head residual (" + h + ")",
 			"supply (" + q + ")", "demand (" + q + ")", "node imbalance (" + q + ")", "pressure (" + s.PressureLabel() + ")"}}
+	if left := r.cfg.scenariosLeftOut(); len(left) > 0 && r.flowCheck == nil {
+		t.Caption += "; not solved (solver.scenarios): " + strings.Join(left, ", ")
+	}
 	for _, st := range r.scenarioStats() {
 		sc := r.scenarioNamed(st.Name)
 		lo, hi := r.pressureRange(sc.sol)

@@ -354,19 +354,16 @@ type scenario struct {
 	sol    *hydraulics.Solution
 }
 
-// solveScenarios solves average day, max day and peak hour, each from its
-// peaking factor, and keeps peak hour as r.sol. The three share one
+// solveScenarios solves the scenarios of solver.scenarios (average day, max
+// day and peak hour unless it leaves some out), each from its peaking
+// factor, and keeps peak hour, always the last, as r.sol. They share one
 // hydraulics.Solver, so the ordering and symbolic factorisation of the head
 // matrix are done once: each scenario sets its source grades (ctlGrades)
 // and solves from a cold start with its factored demands, which is what a
 // Solve of the scenario's own network with its DemandFactor does.
 func (r *result) solveScenarios() error {
 	cfg := r.cfg
-	r.scenarios = []scenario{
-		{name: "average day", prefix: "avg_day_", factor: 1},
-		{name: "max day", prefix: "max_day_", factor: cfg.Demands.MaxDayFactor},
-		{name: "peak hour", prefix: "", factor: cfg.Demands.PeakHourFactor},
-	}
+	r.scenarios = cfg.chosenScenarios()
 	solver, err := hydraulics.NewSolver(r.net, &hydraulics.Options{
 		Tolerance:     cfg.Solver.Tolerance,
 		MaxIterations: cfg.Solver.MaxIterations,

@@ -115,6 +115,9 @@ func (r *result) summariseSolve(p func(string, ...any)) {
 		}
 		tw.Flush()
 		p("%s", t.String())
+		if left := r.cfg.scenariosLeftOut(); len(left) > 0 {
+			p("  not solved (solver.scenarios): %s; their columns are left out of the outputs\n", strings.Join(left, ", "))
+		}
 	}
 	if len(sol.Unsupplied) > 0 {
 		p("  %d nodes are in parts of the network no source reaches (see problems.csv)\n", len(sol.Unsupplied))

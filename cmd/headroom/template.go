@@ -142,7 +142,9 @@ func writeConfig(w io.Writer, c *Config) error {
 	p("[solver]  # Global Gradient Algorithm\n")
 	p("tolerance = %s  # stop when the relative flow change is below this\n", num(orDefaultFloat(c.Solver.Tolerance, defaultSolverTolerance)))
 	p("max_iterations = %d\n", orDefaultInt(c.Solver.MaxIterations, defaultSolverIterations))
-	p("flows = %s  # \"solve\"; or \"from_layer\": no solve, every criterion on pipes.fields.flow (average day, max day and fire flow skipped)\n\n", str(orDefault(c.Solver.Flows, flowsSolve)))
+	p("flows = %s  # \"solve\"; or \"from_layer\": no solve, every criterion on pipes.fields.flow (average day, max day and fire flow skipped)\n", str(orDefault(c.Solver.Flows, flowsSolve)))
+	p("scenarios = %s  # the steady states solved; peak hour is required (the criteria and scores read it), max day while fire flow is on\n\n",
+		list(orDefaultList(c.Solver.Scenarios, allScenarios)))
 
 	sc := c.scoringConfig()
 	p("[weights]  # relative weights of the sub-scores (normalised by their sum)\n")
