@@ -18,6 +18,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime/debug"
 	"time"
 )
 
@@ -32,6 +33,9 @@ const (
 func main() {
 	if _, set := os.LookupEnv("GOMEMLIMIT"); !set {
 		followMemoryLimit(softMemoryLimit, 250*time.Millisecond) // memlimit.go; until exit
+	}
+	if _, set := os.LookupEnv("GOGC"); !set {
+		debug.SetGCPercent(gcPercent) // memlimit.go
 	}
 	os.Exit(headroomMain(os.Args[1:], os.Stdout, os.Stderr))
 }

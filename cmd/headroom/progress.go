@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 	"sync"
 	"time"
 
@@ -92,7 +93,11 @@ func (s *stage) end(detail string) {
 	s.mu.Unlock()
 	line := fmt.Sprintf("headroom: %-16s %s", s.name, formatElapsed(elapsed))
 	if done > 0 && s.unit != "" {
-		line = fmt.Sprintf("headroom: %-16s %d %s in %s", s.name, done, s.unit, formatElapsed(elapsed))
+		unit := s.unit
+		if done == 1 {
+			unit = strings.TrimSuffix(unit, "s") // the units are regular plurals: "1 scenario"
+		}
+		line = fmt.Sprintf("headroom: %-16s %d %s in %s", s.name, done, unit, formatElapsed(elapsed))
 		if sec := elapsed.Seconds(); sec >= 0.05 {
 			line += " (" + formatRate(float64(done)/sec) + ")"
 		}

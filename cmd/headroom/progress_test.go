@@ -20,6 +20,13 @@ func TestStageLine(t *testing.T) {
 	if !want.MatchString(out.String()) {
 		t.Errorf("stage line %q, want it to match %s", out.String(), want)
 	}
+	out.Reset()
+	s = p.begin("solving", "scenarios", 0)
+	s.add(1)
+	s.end("")
+	if one := regexp.MustCompile(`^headroom: solving +1 scenario in `); !one.MatchString(out.String()) {
+		t.Errorf("stage line %q, want one scenario in the singular", out.String())
+	}
 	for _, c := range []struct {
 		rate float64
 		want string
