@@ -1,12 +1,10 @@
 package gis
 
 import (
-	"cmp"
 	"encoding/binary"
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 
 	"github.com/paulmach/orb"
 )
@@ -111,7 +109,13 @@ func gpkgFillRtree(tmp string, rt gpkgRtreeTables, boxes []orb.Bound, has []bool
 	if fanout < 2 {
 		return fmt.Errorf("spatial index nodes of %d bytes hold fewer than 2 cells", rt.nodeBytes)
 	}
-	var leaves []rtreeCell
+	count := 0
+	for _, h := range has {
+		if h {
+			count++
+		}
+	}
+	leaves := make([]rtreeCell, 0, count)
 	for i, b := range boxes {
 		if has[i] {
 			leaves = append(leaves, rtreeBox(int64(i+1), b))
@@ -127,23 +131,48 @@ func gpkgFillRtree(tmp string, rt gpkgRtreeTables, boxes []orb.Bound, has []bool
 	if err := rtreeAppendNodes(tmp, rt.node, rt.nodeBytes, levels); err != nil {
 		return err
 	}
-	var parents, rowids [][2]int64 // (rowid, node); rtreeAppendPairs sorts them
-	for l := 1; l < len(levels); l++ {
-		for _, n := range levels[l] {
-			for _, c := range n.cells {
-				parents = append(parents, [2]int64{c.id, n.no})
-			}
-		}
-	}
-	for _, n := range levels[0] {
-		for _, c := range n.cells {
-			rowids = append(rowids, [2]int64{c.id, n.no})
-		}
-	}
+	// (rowid, node) pairs in rowid order: the nodes below the root are
+	// numbered 2, 3, ... and the features' ids are their fids, so each
+	// pair goes straight to its place (no sort).
+	parents := rtreePairsByID(levels[1:], 2, int64(rtreeNodeCount(levels)))
+	rowids := rtreePairsByID(levels[:1], 1, int64(len(boxes)))
 	if err := rtreeAppendPairs(tmp, rt.parent, parents); err != nil {
 		return err
 	}
 	return rtreeAppendPairs(tmp, rt.rowid, rowids)
+}
+
+// rtreeNodeCount is the number of nodes in levels.
+func rtreeNodeCount(levels [][]rtreeNode) int {
+	n := 0
+	for _, l := range levels {
+		n += len(l)
+	}
+	return n
+}
+
+// rtreePairsByID lists (cell id, node number) for every cell of the nodes
+// in levels, in the order of the ids, which lie in lo..hi: a slot per id,
+// the ids no cell has left out.
+func rtreePairsByID(levels [][]rtreeNode, lo, hi int64) [][2]int64 {
+	if hi < lo {
+		return nil
+	}
+	node := make([]int64, hi-lo+1) // 0: no cell has the id
+	for _, l := range levels {
+		for _, n := range l {
+			for _, c := range n.cells {
+				node[c.id-lo] = n.no
+			}
+		}
+	}
+	pairs := make([][2]int64, 0, len(node))
+	for k, no := range node {
+		if no != 0 {
+			pairs = append(pairs, [2]int64{lo + int64(k), no})
+		}
+	}
+	return pairs
 }
 
 // rtreeBox is b as a cell, rounded outwards to float32.
@@ -212,7 +241,8 @@ func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
 	for k, c := range cells {
 		keyed[k] = rtreeKeyed{key: rtreeOrderKey(float64(c.minX) + float64(c.maxX)), cell: c} // twice the centre's x
 	}
-	slices.SortFunc(keyed, rtreeByKey)
+	spare := make([]rtreeKeyed, len(keyed))
+	rtreeSortKeyed(keyed, spare) // the cells come in id order: ties stay in it
 	nodes := (len(keyed) + fanout - 1) / fanout
 	slices2 := int(math.Ceil(math.Sqrt(float64(nodes))))
 	per := slices2 * fanout // cells per vertical slice
@@ -221,9 +251,13 @@ func rtreeTile(cells []rtreeCell, fanout int) []rtreeNode {
 	for s := 0; s < len(keyed); s += per {
 		slice := keyed[s:min(s+per, len(keyed))]
 		for k := range slice {
+			slice[k].key = uint64(slice[k].cell.id)
+		}
+		rtreeSortKeyed(slice, spare) // back to id order, so that ties in y stay in it
+		for k := range slice {
 			slice[k].key = rtreeOrderKey(float64(slice[k].cell.minY) + float64(slice[k].cell.maxY))
 		}
-		slices.SortFunc(slice, rtreeByKey)
+		rtreeSortKeyed(slice, spare)
 		for k := range slice {
 			sorted[s+k] = slice[k].cell
 		}
@@ -254,14 +288,43 @@ func rtreeOrderKey(x float64) uint64 {
 	return b | 1<<63
 }
 
-func rtreeByKey(a, b rtreeKeyed) int {
-	switch {
-	case a.key < b.key:
-		return -1
-	case a.key > b.key:
-		return 1
+// rtreeSortKeyed sorts cells by key, stably, with spare (at least as long)
+// as scratch space: a least-significant-digit radix sort, a byte a pass,
+// that skips the passes in which every key has the same byte (the high
+// bytes of coordinates that span a town). Stable, so the cells of equal
+// keys keep their order: given in id order, they come out in the order of
+// rtreeByKey, as slices.SortFunc(cells, rtreeByKey) sorts them.
+func rtreeSortKeyed(cells, spare []rtreeKeyed) {
+	if len(cells) < 2 {
+		return
 	}
-	return cmp.Compare(a.cell.id, b.cell.id)
+	var counts [8][256]int
+	for _, c := range cells {
+		for d := range 8 {
+			counts[d][byte(c.key>>(8*d))]++
+		}
+	}
+	src, dst := cells, spare[:len(cells)]
+	for d := range 8 {
+		if counts[d][byte(cells[0].key>>(8*d))] == len(cells) {
+			continue // one byte value in this digit: the pass would change nothing
+		}
+		var at [256]int
+		sum := 0
+		for b, n := range counts[d] {
+			at[b] = sum
+			sum += n
+		}
+		for _, c := range src {
+			b := byte(c.key >> (8 * d))
+			dst[at[b]] = c
+			at[b]++
+		}
+		src, dst = dst, src
+	}
+	if &src[0] != &cells[0] {
+		copy(cells, src)
+	}
 }
 
 // rtreeCover is the box around cells.
@@ -298,11 +361,10 @@ func rtreeAppendNodes(tmp string, root int64, nodeBytes int, levels [][]rtreeNod
 	})
 }
 
-// rtreeAppendPairs writes pairs (rowid, value) into the empty table of an
-// INTEGER PRIMARY KEY and one integer column (the parent and rowid tables)
-// whose root page is root, sorting them by rowid first.
+// rtreeAppendPairs writes pairs (rowid, value), in rowid order, into the
+// empty table of an INTEGER PRIMARY KEY and one integer column (the parent
+// and rowid tables) whose root page is root.
 func rtreeAppendPairs(tmp string, root int64, pairs [][2]int64) error {
-	slices.SortFunc(pairs, func(a, b [2]int64) int { return cmp.Compare(a[0], b[0]) })
 	return fillSQLiteTable(tmp, root, nil, func(out *sqliteTableAppender) error {
 		row := make([]sqliteValue, 2)
 		for _, p := range pairs {

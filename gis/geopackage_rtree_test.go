@@ -151,3 +151,83 @@ func TestRtreeOrderKey(t *testing.T) {
 		}
 	}
 }
+
+// rtreeByKey is the order rtreeTile sorts by: the key, ties by id.
+func rtreeByKey(a, b rtreeKeyed) int {
+	switch {
+	case a.key < b.key:
+		return -1
+	case a.key > b.key:
+		return 1
+	}
+	return cmp.Compare(a.cell.id, b.cell.id)
+}
+
+// rtreeSortKeyed, given cells in id order, sorts them as the comparison
+// sort with rtreeByKey does (slices.SortFunc; its order is total, as the ids
+// differ): keys from a few values (ties everywhere), keys that share their
+// high bytes (the passes skipped), full 64-bit keys, and the lengths 0–2.
+func TestRtreeSortKeyedAsComparator(t *testing.T) {
+	rng := rand.New(rand.NewPCG(17, 19))
+	keys := map[string]func() uint64{
+		"few":    func() uint64 { return uint64(rng.IntN(7)) << 40 },
+		"narrow": func() uint64 { return 0xbff0_0000_0000_0000 | uint64(rng.IntN(1<<20)) },
+		"any":    rng.Uint64,
+	}
+	for name, key := range keys {
+		for _, n := range []int{0, 1, 2, 1000, 50_000} {
+			cells := make([]rtreeKeyed, n)
+			for i := range cells {
+				cells[i] = rtreeKeyed{key: key(), cell: rtreeCell{id: int64(3*i + 1)}}
+			}
+			want := slices.Clone(cells)
+			slices.SortFunc(want, rtreeByKey)
+			rtreeSortKeyed(cells, make([]rtreeKeyed, n))
+			if !slices.Equal(cells, want) {
+				t.Errorf("%s keys, %d cells: order differs from the comparison sort", name, n)
+			}
+		}
+	}
+}
+
+// rtreeTile's nodes follow Sort-Tile-Recursive to the letter: cut into
+// vertical slices of ⌈√P⌉·fanout cells in (x, id) order, each slice in
+// (y, id) order and cut into runs of fanout. Boxes on a coarse grid make
+// ties in x and y common.
+func TestRtreeTileOrder(t *testing.T) {
+	rng := rand.New(rand.NewPCG(23, 29))
+	const fanout = 51
+	for _, n := range []int{1, 51, 52, 5000, 30_000} {
+		cells := make([]rtreeCell, n)
+		for i := range cells {
+			x, y := float32(rng.IntN(40)), float32(rng.IntN(40))
+			cells[i] = rtreeCell{id: int64(i + 1), minX: x, maxX: x + float32(rng.IntN(3)), minY: y, maxY: y + float32(rng.IntN(3))}
+		}
+		nodes := rtreeTile(cells, fanout)
+		var got []rtreeCell
+		for k, nd := range nodes {
+			if len(nd.cells) == 0 || len(nd.cells) > fanout {
+				t.Fatalf("%d cells: node %d holds %d", n, k, len(nd.cells))
+			}
+			got = append(got, nd.cells...)
+		}
+		xKey := func(c rtreeCell) rtreeKeyed {
+			return rtreeKeyed{key: rtreeOrderKey(float64(c.minX) + float64(c.maxX)), cell: c}
+		}
+		yKey := func(c rtreeCell) rtreeKeyed {
+			return rtreeKeyed{key: rtreeOrderKey(float64(c.minY) + float64(c.maxY)), cell: c}
+		}
+		byX := slices.Clone(cells)
+		slices.SortFunc(byX, func(a, b rtreeCell) int { return rtreeByKey(xKey(a), xKey(b)) })
+		per := int(math.Ceil(math.Sqrt(float64((n+fanout-1)/fanout)))) * fanout
+		var want []rtreeCell
+		for s := 0; s < n; s += per {
+			slice := slices.Clone(byX[s:min(s+per, n)])
+			slices.SortFunc(slice, func(a, b rtreeCell) int { return rtreeByKey(yKey(a), yKey(b)) })
+			want = append(want, slice...)
+		}
+		if !slices.Equal(got, want) {
+			t.Errorf("%d cells: the nodes' cells are not in Sort-Tile-Recursive order", n)
+		}
+	}
+}
