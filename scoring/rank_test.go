@@ -265,7 +265,7 @@ func BenchmarkRank10k(b *testing.B) {
 // on 20,000 entries drawn from few values so that every kind of tie occurs.
 func TestRankedPositionsAsStableSort(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
-	n := 20000
+	n := 100_000 // above 2·sortOnCoresMin: sorted in parts on two or more cores
 	keys := make([]rankKey, n)
 	for i := range keys {
 		keys[i] = rankKey{first: float64(rng.IntN(5)), second: float64(rng.IntN(3)),
@@ -291,6 +291,36 @@ func TestRankedPositionsAsStableSort(t *testing.T) {
 	})
 	if got := rankedPositions(keys); !slices.Equal(got, want) {
 		t.Fatalf("order differs from the stable sort's")
+	}
+}
+
+// sortInParts gives slices.SortFunc's order for any number of parts, in
+// runs long enough to be split (ties in the value broken by the position:
+// a total order, as rankedPositions' is).
+func TestSortInPartsAsOneSort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	vals := make([]int, 5*sortOnCoresMin+7)
+	for i := range vals {
+		vals[i] = rng.IntN(50)
+	}
+	byVal := func(a, b int32) int {
+		if c := cmp.Compare(vals[a], vals[b]); c != 0 {
+			return c
+		}
+		return cmp.Compare(a, b)
+	}
+	order := make([]int32, len(vals))
+	for i := range order {
+		order[i] = int32(len(order) - 1 - i)
+	}
+	want := slices.Clone(order)
+	slices.SortFunc(want, byVal)
+	for _, parts := range []int{1, 2, 3, 4, 8} {
+		got := slices.Clone(order)
+		sortInParts(got, make([]int32, len(got)), byVal, parts)
+		if !slices.Equal(got, want) {
+			t.Errorf("%d parts: order differs from slices.SortFunc's", parts)
+		}
 	}
 }
 
