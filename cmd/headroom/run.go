@@ -262,29 +262,83 @@ func analyse(in *inputs) (*result, error) {
 // GeoPackage, in any supported coordinate system) or, for the built-in
 // demo, from the collections already in memory; either way the same code
 // maps their fields. Point layers are joined in lon/lat; pipe lengths come
-// from the pipe layer's own coordinates. Each layer is opened, mapped and
-// let go before the next is opened, so that only one decoded layer is held
-// at a time (at a million pipes a decoded layer takes a gigabyte or more).
+// from the pipe layer's own coordinates. Each layer is let go once it is
+// mapped, and at most two are held at a time: the pipe layer, and the point
+// layer being read beside it.
 func readLayers(in *inputs, r *result) error {
 	cfg := in.cfg
 	mem := []*geojson.FeatureCollection{in.pipes, in.sources, in.demands, in.elevations}
-	read := []func(*gis.Collection) ([]gis.Problem, error){r.readPipes, r.readSources, r.readDemands, r.readElevations}
-	for k, l := range cfg.layers() {
-		c, err := openLayer(in, l, mem[k])
-		if err != nil {
-			return err
+	read := []func(*gis.Collection) ([]gis.Problem, error){nil, r.readSources, r.readDemands, r.readElevations} // pipes: readPipeLayer
+	layers := cfg.layers()
+	// The point layers are read on another goroutine while the pipes are
+	// (their readers touch only their own fields of r, and not r.problems,
+	// which the pipe reader adds to); their problems go into problems.csv
+	// after the pipes', in layer order, as when the layers were read one
+	// after the other, and a failed layer stops the ones after it.
+	points := make([]layerRead, len(layers))
+	pointsDone := make(chan struct{})
+	go func() {
+		defer close(pointsDone)
+		for k := 1; k < len(layers); k++ {
+			if points[k] = readLayer(in, layers[k], mem[k], read[k]); points[k].err != nil {
+				return
+			}
 		}
-		if c.Note != "" {
-			r.problems = append(r.problems, gis.Problem{File: c.File, Field: "crs", What: c.Note,
-				Action: fmt.Sprintf("set %s.crs to say which coordinate system the layer is in", l.key)})
-		}
-		probs, err := read[k](c)
-		r.problems = append(r.problems, probs...)
-		if err != nil {
-			return err
+	}()
+	err := r.readPipeLayer(in, layers[0], mem[0])
+	<-pointsDone
+	if err != nil {
+		return err
+	}
+	for _, l := range points[1:] {
+		r.problems = append(r.problems, l.probs...)
+		if l.err != nil {
+			return l.err
 		}
 	}
 	return nil
+}
+
+// readPipeLayer opens and maps the pipe layer, adding its problems to
+// r.problems as it goes: the note on its coordinate system, then those of
+// the sizes (sizeRead adds them itself), then the rest.
+func (r *result) readPipeLayer(in *inputs, l layerConfig, mem *geojson.FeatureCollection) error {
+	c, err := openLayer(in, l, mem)
+	if err != nil {
+		return err
+	}
+	r.problems = append(r.problems, crsNote(c, l.key)...)
+	probs, err := r.readPipes(c)
+	r.problems = append(r.problems, probs...)
+	return err
+}
+
+// layerRead is what reading one layer gave: its problems (the note on its
+// coordinate system first) and the error that stopped it.
+type layerRead struct {
+	probs []gis.Problem
+	err   error
+}
+
+// readLayer opens layer l and maps it with read.
+func readLayer(in *inputs, l layerConfig, mem *geojson.FeatureCollection, read func(*gis.Collection) ([]gis.Problem, error)) layerRead {
+	c, err := openLayer(in, l, mem)
+	if err != nil {
+		return layerRead{err: err}
+	}
+	probs := crsNote(c, l.key)
+	more, err := read(c)
+	return layerRead{probs: append(probs, more...), err: err}
+}
+
+// crsNote is the problem that says layer key (opened as c) declares no
+// coordinate system and which one was assumed; none when it declares one.
+func crsNote(c *gis.Collection, key string) []gis.Problem {
+	if c.Note == "" {
+		return nil
+	}
+	return []gis.Problem{{File: c.File, Field: "crs", What: c.Note,
+		Action: fmt.Sprintf("set %s.crs to say which coordinate system the layer is in", key)}}
 }
 
 // readPipes maps the pipe layer: the pipes, their sizes, lining years and,
