@@ -626,7 +626,13 @@ func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
 			os.Remove(tmp.Name())
 		}
 	}()
-	if err = write(tmp); err != nil {
+	sink := newFileSink(tmp)
+	werr := write(sink)
+	size, sum, err := sink.finish() // waits for the write in flight even when write failed
+	if werr != nil {
+		err = werr
+	}
+	if err != nil {
 		return fmt.Errorf("gis: writing %s: %w", path, err)
 	}
 	if err = tmp.Chmod(0o644); err != nil {
@@ -638,9 +644,14 @@ func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
 	if err = tmp.Close(); err != nil {
 		return fmt.Errorf("gis: writing %s: %w", path, err)
 	}
+	fi, err := os.Stat(tmp.Name())
+	if err != nil {
+		return fmt.Errorf("gis: writing %s: %w", path, err)
+	}
 	if err = os.Rename(tmp.Name(), path); err != nil {
 		return fmt.Errorf("gis: writing %s: %w", path, err)
 	}
+	digests.Store(filepath.Clean(path), Digest{Bytes: size, SHA256: sum, ModTime: fi.ModTime()})
 	if d, derr := os.Open(dir); derr == nil { // make the rename durable; best effort
 		d.Sync()
 		d.Close()

@@ -71,7 +71,7 @@ func (h *stagedHashes) hashStaged(stage, name string) error {
 		if _, err := os.Stat(p); os.IsNotExist(err) {
 			continue // a shapefile part not written (no .prj)
 		}
-		rec, err := report.HashFile(p, f, "")
+		rec, err := stagedRecord(p, f)
 		if err != nil {
 			return fmt.Errorf("hashing %s for the manifest: %w", f, err)
 		}
@@ -80,6 +80,17 @@ func (h *stagedHashes) hashStaged(stage, name string) error {
 		h.mu.Unlock()
 	}
 	return nil
+}
+
+// stagedRecord is the manifest's record of the staged file at p, named f:
+// its size and SHA-256 as gis.WriteFileAtomic worked them out while writing
+// it, or read back from the file when another writer made it (the
+// GeoPackages, built through SQLite).
+func stagedRecord(p, f string) (report.FileRecord, error) {
+	if d, ok := gis.WrittenDigest(p); ok {
+		return report.FileRecord{Path: f, Bytes: d.Bytes, SHA256: hex.EncodeToString(d.SHA256[:])}, nil
+	}
+	return report.HashFile(p, f, "")
 }
 
 // manifest gathers the run's record: version, the time, the config as used,
