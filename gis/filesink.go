@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"errors"
 	"hash"
+	"io"
 	"os"
 	"path/filepath"
 	"sync"
@@ -27,7 +28,7 @@ type fileSink struct {
 	bufs   [2][]byte
 	cur, n int // the buffer being filled and its bytes
 	direct bool
-	sum    hash.Hash
+	sum    hash.Hash // nil: not hashed
 	size   int64
 
 	wg  sync.WaitGroup // the write in flight
@@ -46,8 +47,13 @@ const (
 // writes' lengths and offsets: the largest logical block size in use.
 const sinkAlign = 4096
 
-func newFileSink(f *os.File) *fileSink {
-	s := &fileSink{f: f, sum: sha256.New()}
+// newFileSink writes from f's offset on, adding the bytes to a SHA-256 when
+// hashed is set.
+func newFileSink(f *os.File, hashed bool) *fileSink {
+	s := &fileSink{f: f}
+	if hashed {
+		s.sum = sha256.New()
+	}
 	s.bufs[0] = alignedBuffer(sinkFirst, sinkAlign)
 	s.direct = setDirectIO(f, true)
 	return s
@@ -98,7 +104,9 @@ func (s *fileSink) handOff() error {
 // write the file system refuses (EINVAL) is retried through the page
 // cache, and the sink stays there.
 func (s *fileSink) writeOut(b []byte, direct bool) error {
-	s.sum.Write(b)
+	if s.sum != nil {
+		s.sum.Write(b)
+	}
 	s.size += int64(len(b))
 	_, err := s.f.Write(b)
 	if err != nil && direct && errors.Is(err, syscall.EINVAL) {
@@ -128,8 +136,52 @@ func (s *fileSink) finish() (int64, [sha256.Size]byte, error) {
 		return 0, sum, err
 	}
 	s.n = 0
-	s.sum.Sum(sum[:0])
+	if s.sum != nil {
+		s.sum.Sum(sum[:0])
+	}
 	return s.size, sum, nil
+}
+
+// wait waits for the write in flight, if any.
+func (s *fileSink) wait() { s.wg.Wait() }
+
+// Flush is finish for a sink that is not hashed: the bytes written, the
+// file's page cache mode restored for what follows.
+func (s *fileSink) Flush() error {
+	_, _, err := s.finish()
+	return err
+}
+
+// FileDigest reads the file at path for its size and SHA-256, past the
+// page cache where the file system allows (the file, just written, need
+// not be cached a second time).
+func FileDigest(path string) (Digest, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return Digest{}, err
+	}
+	defer f.Close()
+	direct := setDirectIO(f, true)
+	buf := alignedBuffer(sinkBuffer, sinkAlign)
+	h := sha256.New()
+	var d Digest
+	for {
+		n, err := f.Read(buf)
+		if err != nil && direct && errors.Is(err, syscall.EINVAL) {
+			direct = setDirectIO(f, false)
+			continue // nothing was read: the same offset again
+		}
+		h.Write(buf[:n])
+		d.Bytes += int64(n)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return Digest{}, err
+		}
+	}
+	h.Sum(d.SHA256[:0])
+	return d, nil
 }
 
 // Digest is a written file's size and SHA-256, and when it was recorded.

@@ -31,7 +31,7 @@ func TestFileSinkBytesAndDigest(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			s := newFileSink(f)
+			s := newFileSink(f, true)
 			if !direct {
 				s.direct = setDirectIO(f, false)
 			}
@@ -72,7 +72,7 @@ func TestFileSinkWriteError(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer f.Close()
-	s := newFileSink(f)
+	s := newFileSink(f, true)
 	_, werr := s.Write(make([]byte, 3*sinkFirst))
 	_, _, ferr := s.finish()
 	if werr == nil && ferr == nil {
@@ -144,7 +144,7 @@ func TestFileSinkRefusedDirectWrite(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer f.Close()
-	s := newFileSink(f)
+	s := newFileSink(f, true)
 	if !s.direct {
 		t.Skip("no direct I/O on this file system")
 	}
@@ -160,4 +160,21 @@ func TestFileSinkRefusedDirectWrite(t *testing.T) {
 		t.Fatalf("read back %d bytes, want the %d written", len(got), sinkAlign)
 	}
 	t.Logf("direct I/O after the misaligned write: %v", s.direct)
+}
+
+// FileDigest reads any file's size and SHA-256 as crypto/sha256 gives them,
+// past the page cache or through it, whatever the file's length.
+func TestFileDigest(t *testing.T) {
+	dir := t.TempDir()
+	for _, n := range []int{0, 1, sinkAlign, sinkBuffer - 1, sinkBuffer + sinkAlign + 3} {
+		data := bytes.Repeat([]byte("fire flow "), n/10+1)[:n]
+		path := filepath.Join(dir, "d"+strconv.Itoa(n))
+		if err := os.WriteFile(path, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		d, err := FileDigest(path)
+		if err != nil || d.Bytes != int64(n) || d.SHA256 != sha256.Sum256(data) {
+			t.Errorf("%d bytes: digest of %d bytes (%v), want crypto/sha256's", n, d.Bytes, err)
+		}
+	}
 }

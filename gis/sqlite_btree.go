@@ -1,7 +1,6 @@
 package gis
 
 import (
-	"bufio"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -31,7 +30,7 @@ import (
 // rows yet.
 type sqliteTableAppender struct {
 	f        *os.File
-	w        *bufio.Writer // pages appended, in page order
+	w        *fileSink // pages appended, in page order
 	path     string
 	pageSize int    // bytes a page
 	format4  bool   // schema format 4: serial types 8 and 9 hold 0 and 1 (§2.1)
@@ -78,7 +77,7 @@ func openSQLiteTableAppender(path string, root int64, real []bool) (*sqliteTable
 		f.Close()
 		return nil, err
 	}
-	a.w = bufio.NewWriterSize(f, 1<<20)
+	a.w = newFileSink(f, false) // whole pages past the page cache (filesink.go)
 	a.page = make([]byte, a.pageSize)
 	return a, nil
 }
@@ -281,6 +280,7 @@ func layOutPage(page []byte, kind byte, cells []byte, ends []int, right uint32) 
 // file is not synced (the GeoPackage writer syncs it once complete).
 func (a *sqliteTableAppender) finish() (err error) {
 	defer func() {
+		a.w.wait() // a write still in flight after an early return
 		if cerr := a.f.Close(); err == nil {
 			err = cerr
 		}

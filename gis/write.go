@@ -626,7 +626,7 @@ func WriteFileAtomic(path string, write func(io.Writer) error) (err error) {
 			os.Remove(tmp.Name())
 		}
 	}()
-	sink := newFileSink(tmp)
+	sink := newFileSink(tmp, true)
 	werr := write(sink)
 	size, sum, err := sink.finish() // waits for the write in flight even when write failed
 	if werr != nil {

@@ -84,13 +84,17 @@ func (h *stagedHashes) hashStaged(stage, name string) error {
 
 // stagedRecord is the manifest's record of the staged file at p, named f:
 // its size and SHA-256 as gis.WriteFileAtomic worked them out while writing
-// it, or read back from the file when another writer made it (the
-// GeoPackages, built through SQLite).
+// it, or read back from the file (past the page cache: gis.FileDigest) when
+// another writer made it (the GeoPackages, finished by SQLite).
 func stagedRecord(p, f string) (report.FileRecord, error) {
-	if d, ok := gis.WrittenDigest(p); ok {
-		return report.FileRecord{Path: f, Bytes: d.Bytes, SHA256: hex.EncodeToString(d.SHA256[:])}, nil
+	d, ok := gis.WrittenDigest(p)
+	if !ok {
+		var err error
+		if d, err = gis.FileDigest(p); err != nil {
+			return report.FileRecord{}, err
+		}
 	}
-	return report.HashFile(p, f, "")
+	return report.FileRecord{Path: f, Bytes: d.Bytes, SHA256: hex.EncodeToString(d.SHA256[:])}, nil
 }
 
 // manifest gathers the run's record: version, the time, the config as used,
@@ -125,7 +129,7 @@ func (r *result) manifest(stage string, outs []output, h *stagedHashes) (*report
 				if _, err := os.Stat(p); os.IsNotExist(err) {
 					continue // a shapefile part not written (no .prj)
 				}
-				if rec, err = report.HashFile(p, f, ""); err != nil {
+				if rec, err = stagedRecord(p, f); err != nil {
 					return nil, fmt.Errorf("manifest: %w", err)
 				}
 			}
