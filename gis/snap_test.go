@@ -2,12 +2,14 @@ package gis
 
 import (
 	"math"
+	"math/rand/v2"
 	"reflect"
 	"strconv"
 	"strings"
 	"testing"
 
 	"github.com/paulmach/orb"
+	"github.com/tidwall/rtree"
 
 	"headroom/hydraulics"
 )
@@ -177,4 +179,75 @@ func BenchmarkSnap100k(b *testing.B) {
 		Snap(work, halfFoot)
 	}
 	b.ReportMetric(float64(len(pipes))*float64(b.N)/b.Elapsed().Seconds(), "pipes/s")
+}
+
+// Snap's grid join makes the nodes and ends that joining each end to its
+// nearest node within the tolerance through the node R-tree does (the
+// search it replaced, kept here as the reference: nearestWithin over an
+// R-tree grown one node at a time, a closed loop's nodes deleted again).
+// The ends are drawn on a coarse lattice with jitter of about the
+// tolerance, so that ends fall just inside and just outside it, several
+// nodes compete for one end, and some pipes close on themselves.
+func TestSnapJoinAsRtreeReference(t *testing.T) {
+	rng := rand.New(rand.NewPCG(41, 43))
+	const tol = 0.15 // metres, about the default 0.5 ft
+	end := func() (float64, float64) {
+		return float64(rng.IntN(30))*5 + (rng.Float64()-0.5)*3*tol, float64(rng.IntN(30))*5 + (rng.Float64()-0.5)*3*tol
+	}
+	var pipes []Pipe
+	for i := range 20_000 {
+		x0, y0 := end()
+		x1, y1 := end()
+		if i%50 == 0 {
+			x1, y1 = x0+(rng.Float64()-0.5)*tol, y0+(rng.Float64()-0.5)*tol // a stub or a loop
+		}
+		pipes = append(pipes, testPipe("P"+strconv.Itoa(i), x0, y0, x1, y1))
+	}
+	ref := &Topology{Ends: make([][2]int, len(pipes)), index: &rtree.RTreeG[int]{}}
+	ref.proj = originOf(pipes)
+	join := func(q orb.Point) int {
+		if k, _ := ref.nearestWithin(q, tol, -1, -1); k >= 0 {
+			return k
+		}
+		k := len(ref.Nodes)
+		xy := ref.proj.xy(q)
+		ref.Nodes = append(ref.Nodes, TopoNode{At: q, X: xy[0], Y: xy[1]})
+		ref.index.Insert(xy, xy, k)
+		return k
+	}
+	for i := range pipes {
+		p := pipes[i]
+		ref.Ends[i] = [2]int{-1, -1}
+		if topoZeroLength(p.Line, tol) {
+			continue
+		}
+		n0 := len(ref.Nodes)
+		a, b := join(p.Line[0]), join(p.Line[len(p.Line)-1])
+		if a == b {
+			for k := len(ref.Nodes) - 1; k >= n0; k-- {
+				xy := ref.proj.xy(ref.Nodes[k].At)
+				ref.index.Delete(xy, xy, k)
+			}
+			ref.Nodes = ref.Nodes[:n0]
+			continue
+		}
+		ref.Ends[i] = [2]int{a, b}
+	}
+	got, _ := Snap(pipes, hydraulics.Length(tol))
+	loops := 0
+	for i := range pipes {
+		if ref.Ends[i][0] < 0 {
+			loops++
+			continue
+		}
+		a, b := got.Nodes[got.Ends[i][0]].At, got.Nodes[got.Ends[i][1]].At
+		if a != ref.Nodes[ref.Ends[i][0]].At || b != ref.Nodes[ref.Ends[i][1]].At {
+			t.Fatalf("pipe %d joins nodes at %v and %v, the reference %v and %v", i, a, b,
+				ref.Nodes[ref.Ends[i][0]].At, ref.Nodes[ref.Ends[i][1]].At)
+		}
+	}
+	if loops == 0 || len(got.Nodes) < len(ref.Nodes) {
+		t.Fatalf("%d pipes left out, %d nodes against the reference's %d", loops, len(got.Nodes), len(ref.Nodes))
+	}
+	t.Logf("%d pipes, %d nodes before tees, %d left out", len(pipes), len(ref.Nodes), loops)
 }
