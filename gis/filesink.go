@@ -168,8 +168,9 @@ func FileDigest(path string) (Digest, error) {
 	for {
 		n, err := f.Read(buf)
 		if err != nil && direct && errors.Is(err, syscall.EINVAL) {
-			direct = setDirectIO(f, false)
-			continue // nothing was read: the same offset again
+			setDirectIO(f, false)
+			direct = false // one retry: a second refusal is an error
+			continue       // nothing was read: the same offset again
 		}
 		h.Write(buf[:n])
 		d.Bytes += int64(n)

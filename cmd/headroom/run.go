@@ -413,8 +413,9 @@ type scenario struct {
 // factor, and keeps peak hour, always the last, as r.sol. They share one
 // hydraulics.Solver, so the ordering and symbolic factorisation of the head
 // matrix are done once: each scenario sets its source grades (ctlGrades)
-// and solves from a cold start with its factored demands, which is what a
-// Solve of the scenario's own network with its DemandFactor does.
+// and solves with its factored demands, starting from the scenarios before
+// it (warmStart; the first from a cold start), to the same solution as a
+// Solve of the scenario's own network with its DemandFactor.
 func (r *result) solveScenarios() error {
 	cfg := r.cfg
 	r.scenarios = cfg.chosenScenarios()
