@@ -101,19 +101,26 @@ func (s *fileSink) handOff() error {
 }
 
 // writeOut hashes b and writes it, directly when direct is set; a direct
-// write the file system refuses (EINVAL) is retried through the page
-// cache, and the sink stays there.
+// write the file system refuses (directRefused) is retried through the
+// page cache, and the sink stays there.
 func (s *fileSink) writeOut(b []byte, direct bool) error {
 	if s.sum != nil {
 		s.sum.Write(b)
 	}
 	s.size += int64(len(b))
 	_, err := s.f.Write(b)
-	if err != nil && direct && errors.Is(err, syscall.EINVAL) {
+	if err != nil && direct && directRefused(err) {
 		s.direct = setDirectIO(s.f, false) // a later handOff reads it after wg.Wait
 		_, err = s.f.Write(b)
 	}
 	return err
+}
+
+// directRefused reports whether err is a file system's refusal of a direct
+// read or write (EINVAL: alignment or no support; EOPNOTSUPP from some
+// FUSE and network file systems), which the page cache then serves.
+func directRefused(err error) bool {
+	return errors.Is(err, syscall.EINVAL) || errors.Is(err, syscall.EOPNOTSUPP)
 }
 
 // finish writes what is left: its whole blocks directly, the rest through
@@ -167,7 +174,7 @@ func FileDigest(path string) (Digest, error) {
 	var d Digest
 	for {
 		n, err := f.Read(buf)
-		if err != nil && direct && errors.Is(err, syscall.EINVAL) {
+		if err != nil && direct && directRefused(err) {
 			setDirectIO(f, false)
 			direct = false // one retry: a second refusal is an error
 			continue       // nothing was read: the same offset again
