@@ -184,37 +184,43 @@ func (r *result) progReadFacilities(in *inputs) error {
 
 // progAssess scores the risk and the priority of every scored main.
 func (r *result) progAssess() {
-	cfg, p := r.cfg, r.prog
+	p := r.prog
 	n := len(r.pipes)
 	p.risk, p.priority = make([]scoring.Risk, n), make([]float64, n)
 	use, perf, ids := make([]bool, n), make([]float64, n), make([]string, n)
-	for i, pipe := range r.pipes {
-		ids[i] = pipe.ID
-		sc := r.scores[i]
-		if !sc.Scored {
-			continue
-		}
-		age := math.NaN()
-		if pipe.InstallYear > 0 {
-			age = float64(cfg.AnalysisYear - pipe.InstallYear)
-		}
-		rp := scoring.RiskPipe{Age: age, Material: pipe.Material, C: r.cFactor[i], Diameter: float64(pipe.Diameter),
-			Flow: math.Abs(float64(r.checks[r.governing(i)].Flow)), FacilityDistance: math.NaN(),
-			Road: pipe.Surface, HasRoad: cfg.Pipes.Fields.Surface != "", HasBreaks: p.pipeBreaks != nil}
-		if p.pipeBreaks != nil {
-			rp.BreakRate = p.pipeBreaks[i].PerLengthYear
-		}
-		if p.facilityNear != nil {
-			rp.FacilityDistance = math.Inf(1)
-			if f := p.facilityNear[i]; f.Facility >= 0 {
-				rp.FacilityDistance = float64(f.Distance)
+	forPipeChunks(n, func(lo, hi int) { // each main on its own: on every core
+		for i := lo; i < hi; i++ {
+			ids[i] = r.pipes[i].ID
+			if sc := r.scores[i]; sc.Scored {
+				p.risk[i] = scoring.AssessRisk(r.progRiskPipe(i), p.riskCfg)
+				p.priority[i] = scoring.Priority(p.risk[i].Value, sc.Score, p.riskCfg)
+				use[i], perf[i] = true, sc.Score
 			}
 		}
-		p.risk[i] = scoring.AssessRisk(rp, p.riskCfg)
-		p.priority[i] = scoring.Priority(p.risk[i].Value, sc.Score, p.riskCfg)
-		use[i], perf[i] = true, sc.Score
-	}
+	})
 	p.priorityRank = scoring.PriorityRanks(p.priority, perf, ids, use)
+}
+
+// progRiskPipe is what the risk of input pipe i is assessed from.
+func (r *result) progRiskPipe(i int) scoring.RiskPipe {
+	cfg, p, pipe := r.cfg, r.prog, &r.pipes[i]
+	age := math.NaN()
+	if pipe.InstallYear > 0 {
+		age = float64(cfg.AnalysisYear - pipe.InstallYear)
+	}
+	rp := scoring.RiskPipe{Age: age, Material: pipe.Material, C: r.cFactor[i], Diameter: float64(pipe.Diameter),
+		Flow: math.Abs(float64(r.checks[r.governing(i)].Flow)), FacilityDistance: math.NaN(),
+		Road: pipe.Surface, HasRoad: cfg.Pipes.Fields.Surface != "", HasBreaks: p.pipeBreaks != nil}
+	if p.pipeBreaks != nil {
+		rp.BreakRate = p.pipeBreaks[i].PerLengthYear
+	}
+	if p.facilityNear != nil {
+		rp.FacilityDistance = math.Inf(1)
+		if f := p.facilityNear[i]; f.Facility >= 0 {
+			rp.FacilityDistance = float64(f.Distance)
+		}
+	}
+	return rp
 }
 
 // progNewDiameter is the nominal size input pipe i is replaced at: the
@@ -233,7 +239,7 @@ func (r *result) progNewDiameter(i int) hydraulics.Length {
 // when it had at least two breaks in the record, else its cohort's rate at
 // the end of the record, growing at the cohort's fitted (or default) rate.
 func (r *result) progEconomics() {
-	cfg, p := r.cfg, r.prog
+	p := r.prog
 	p.replaceYear = make([]float64, len(r.pipes))
 	p.replaceState = make([]scoring.ReplacementState, len(r.pipes))
 	for i := range p.replaceYear {
@@ -242,29 +248,37 @@ func (r *result) progEconomics() {
 	if p.pipeBreaks == nil {
 		return
 	}
-	for i, pipe := range r.pipes {
-		if !r.scores[i].Scored {
-			continue
+	forPipeChunks(len(r.pipes), func(lo, hi int) { // each main on its own: on every core
+		for i := lo; i < hi; i++ {
+			r.progEconomicsOne(i)
 		}
-		co := progCohortOf(p.cohorts, pipe)
-		if co == nil {
-			continue
-		}
-		n0 := co.BaseRate
-		if pb := p.pipeBreaks[i]; pb.Count >= 2 {
-			n0 = pb.PerLengthYear
-		}
-		y, state := scoring.OptimalReplacementYear(scoring.ReplacementEconomics{
-			BaseYear: float64(p.window.To), BaseRate: n0, Growth: co.Growth,
-			RepairCost:      orDefaultPtr(cfg.Economics.RepairCost, progDefaultRepairCost),
-			ReplacementCost: p.costs.PerMetre(float64(r.progNewDiameter(i)), pipe.Surface),
-			DiscountRate:    orDefaultPtr(cfg.Economics.DiscountRate, progDefaultDiscountRate),
-		})
-		if state == scoring.ReplacementFuture && y > float64(p.window.To+progHorizonYears) {
-			y, state = math.Inf(1), scoring.ReplacementNever // growth so slow that the year means nothing
-		}
-		p.replaceYear[i], p.replaceState[i] = y, state
+	})
+}
+
+// progEconomicsOne is progEconomics for input pipe i.
+func (r *result) progEconomicsOne(i int) {
+	cfg, p, pipe := r.cfg, r.prog, r.pipes[i]
+	if !r.scores[i].Scored {
+		return
 	}
+	co := progCohortOf(p.cohorts, pipe)
+	if co == nil {
+		return
+	}
+	n0 := co.BaseRate
+	if pb := p.pipeBreaks[i]; pb.Count >= 2 {
+		n0 = pb.PerLengthYear
+	}
+	y, state := scoring.OptimalReplacementYear(scoring.ReplacementEconomics{
+		BaseYear: float64(p.window.To), BaseRate: n0, Growth: co.Growth,
+		RepairCost:      orDefaultPtr(cfg.Economics.RepairCost, progDefaultRepairCost),
+		ReplacementCost: p.costs.PerMetre(float64(r.progNewDiameter(i)), pipe.Surface),
+		DiscountRate:    orDefaultPtr(cfg.Economics.DiscountRate, progDefaultDiscountRate),
+	})
+	if state == scoring.ReplacementFuture && y > float64(p.window.To+progHorizonYears) {
+		y, state = math.Inf(1), scoring.ReplacementNever // growth so slow that the year means nothing
+	}
+	p.replaceYear[i], p.replaceState[i] = y, state
 }
 
 // progCohortOf finds the cohort (material × install decade) of a pipe.
