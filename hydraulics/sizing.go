@@ -108,7 +108,7 @@ func CheckPipes(net *Network, sol *Solution, lim Limits) []PipeCheck {
 	}
 	checks := make([]PipeCheck, len(net.Pipes))
 	sizes := sizesFrom(lim.Sizes, lim.MinNominal)
-	forPipeRanges(len(net.Pipes), func(lo, hi int) {
+	ForPipeRanges(len(net.Pipes), func(lo, hi int) {
 		for j := lo; j < hi; j++ {
 			checks[j] = checkPipe(net.Pipes[j], sol.Flow[j], lim, sizes)
 		}
@@ -138,10 +138,11 @@ func checkPipe(p Pipe, q Flow, lim Limits, sizes []Size) PipeCheck {
 	return ch
 }
 
-// forPipeRanges calls body on GOMAXPROCS consecutive ranges covering
+// ForPipeRanges calls body on GOMAXPROCS consecutive ranges covering
 // [0, n) at once, or once for fewer than 2 × 8,192 pipes; body must write
-// only its own range's results.
-func forPipeRanges(n int, body func(lo, hi int)) {
+// only its own range's results. It is for loops over the pipes (or nodes)
+// of a network whose items are worked out each on its own.
+func ForPipeRanges(n int, body func(lo, hi int)) {
 	workers := min(runtime.GOMAXPROCS(0), n/8192)
 	if workers <= 1 {
 		body(0, n)

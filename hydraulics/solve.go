@@ -516,7 +516,7 @@ func (s *gga) step(refactor bool) error {
 			s.rhs[k] = -s.demand[i]
 		}
 	}
-	forPipeRanges(len(s.solved), func(lo, hi int) { s.losses(lo, hi, refactor) })
+	ForPipeRanges(len(s.solved), func(lo, hi int) { s.losses(lo, hi, refactor) })
 	for j, ok := range s.solved {
 		if !ok {
 			continue
@@ -570,7 +570,7 @@ func (s *gga) step(refactor bool) error {
 // losses sets y_j = p_j·h_j(Q_j) for the solved pipes j in [lo, hi), and
 // with refactor the conductances p_j = 1/h'_j(Q_j) as well (a chord step
 // keeps the last ones). It writes only its own pipes' entries, so ranges
-// may run at once (step runs them on the cores through forPipeRanges: the
+// may run at once (step runs them on the cores through ForPipeRanges: the
 // fractional powers are most of a step's own work).
 func (s *gga) losses(lo, hi int, refactor bool) {
 	for j := lo; j < hi; j++ {

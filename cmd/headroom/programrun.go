@@ -188,7 +188,7 @@ func (r *result) progAssess() {
 	n := len(r.pipes)
 	p.risk, p.priority = make([]scoring.Risk, n), make([]float64, n)
 	use, perf, ids := make([]bool, n), make([]float64, n), make([]string, n)
-	forPipeChunks(n, func(lo, hi int) { // each main on its own: on every core
+	hydraulics.ForPipeRanges(n, func(lo, hi int) { // each main on its own: on every core
 		for i := lo; i < hi; i++ {
 			ids[i] = r.pipes[i].ID
 			if sc := r.scores[i]; sc.Scored {
@@ -248,7 +248,7 @@ func (r *result) progEconomics() {
 	if p.pipeBreaks == nil {
 		return
 	}
-	forPipeChunks(len(r.pipes), func(lo, hi int) { // each main on its own: on every core
+	hydraulics.ForPipeRanges(len(r.pipes), func(lo, hi int) { // each main on its own: on every core
 		for i := lo; i < hi; i++ {
 			r.progEconomicsOne(i)
 		}
