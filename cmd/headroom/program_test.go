@@ -219,7 +219,8 @@ func TestProgramMustDo(t *testing.T) {
 }
 
 // The break layer read and joined on its own goroutine while the network
-// is solved (progStartBreaks) gives what reading it when the program
+// is solved (progStartBreaks; the facility layer likewise,
+// progStartFacilities) gives what reading it when the program
 // starts gives: the same breaks, the same main for each, the same tally and
 // rates, and the same problems in the same order. .ci/run runs it under
 // the race detector, which checks that the join only reads what the
@@ -306,8 +307,11 @@ func TestBreaksReadAheadAsInPlace(t *testing.T) {
 		}
 		return out
 	}
+	if r.facilitiesAhead == nil {
+		t.Fatal("the demo town has a facility layer, but nothing read it ahead")
+	}
 	inPlace := *r
-	inPlace.breaksAhead, inPlace.problems = nil, nil
+	inPlace.breaksAhead, inPlace.facilitiesAhead, inPlace.problems = nil, nil, nil
 	if err := inPlace.progRun(in); err != nil {
 		t.Fatal(err)
 	}
@@ -320,5 +324,10 @@ func TestBreaksReadAheadAsInPlace(t *testing.T) {
 	}
 	if pa, pb := breakProblems(r.problems), breakProblems(inPlace.problems); !reflect.DeepEqual(pa, pb) {
 		t.Errorf("%d break problems read ahead, %d in place, or in another order", len(pa), len(pb))
+	}
+	// The facilities too (progStartFacilities): the same facilities and
+	// the same nearest one, at the same distance, for every main.
+	if len(a.facilities) == 0 || !reflect.DeepEqual(a.facilities, b.facilities) || !reflect.DeepEqual(a.facilityNear, b.facilityNear) {
+		t.Errorf("%d facilities read ahead, %d in place; the facilities or the mains' nearest differ", len(a.facilities), len(b.facilities))
 	}
 }

@@ -139,8 +139,9 @@ type result struct {
 	cure        *hydraulics.UpsizeResult
 	cureHydrant []int
 
-	prog        *progResult    // the replacement program (program.go)
-	breaksAhead *pendingBreaks // the break layer read and joined while the network is solved (progStartBreaks)
+	prog            *progResult        // the replacement program (program.go)
+	breaksAhead     *pendingBreaks     // the break layer read and joined while the network is solved (progStartBreaks)
+	facilitiesAhead *pendingFacilities // the facility layer read, each main's nearest found, meanwhile (progStartFacilities)
 
 	progress *progress // the stages on stderr; nil reports nothing
 	in       *inputs   // what was read, for the manifest
@@ -175,6 +176,7 @@ func analyse(in *inputs) (*result, error) {
 	snapping.end(fmt.Sprintf("%d nodes", len(topo.Nodes)))
 	r.problems = append(r.problems, probs...)
 	r.breaksAhead = r.progStartBreaks(in) // Snap was the last to change the pipes
+	r.facilitiesAhead = r.progStartFacilities(in)
 
 	joining := r.progress.begin("joining", "", 0)
 	supplies, probs := gis.AttachSources(topo, r.sources, hydraulics.Length(cfg.si(cfg.sourceSearch())))
