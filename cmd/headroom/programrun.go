@@ -51,17 +51,27 @@ type joined struct {
 	err    error
 }
 
-// pendingBreaks is the break layer being read and joined on another
-// goroutine; wait gives its result, as often as asked (a copy of a result
-// may run the program again).
-type pendingBreaks struct {
-	done chan struct{} // closed once j is set
-	j    joined
+// ahead is work started on another goroutine while the network is joined
+// and solved (the break and facility layers); wait gives its result, as
+// often as asked (a copy of a result may run the program again).
+type ahead[T any] struct {
+	done chan struct{} // closed once v is set
+	v    T
 }
 
-func (pb *pendingBreaks) wait() joined {
-	<-pb.done
-	return pb.j
+// startAhead runs work on another goroutine.
+func startAhead[T any](work func() T) *ahead[T] {
+	a := &ahead[T]{done: make(chan struct{})}
+	go func() {
+		defer close(a.done)
+		a.v = work()
+	}()
+	return a
+}
+
+func (a *ahead[T]) wait() T {
+	<-a.done
+	return a.v
 }
 
 // progStartBreaks reads the break layer and joins it to the mains on
@@ -72,17 +82,12 @@ func (pb *pendingBreaks) wait() joined {
 // when there is no break layer. progReadBreaks takes the result, so
 // problems and errors come in the order they did when it read the layer
 // itself.
-func (r *result) progStartBreaks(in *inputs) *pendingBreaks {
+func (r *result) progStartBreaks(in *inputs) *ahead[joined] {
 	cfg := r.cfg
 	if cfg.Breaks.Path == "" && in.breaks == nil {
 		return nil
 	}
-	pb := &pendingBreaks{done: make(chan struct{})}
-	go func() {
-		pb.j = r.progJoinBreaks(in)
-		close(pb.done)
-	}()
-	return pb
+	return startAhead(func() joined { return r.progJoinBreaks(in) })
 }
 
 // progJoinBreaks reads the break layer and joins each break to a main.
@@ -106,14 +111,14 @@ func (r *result) progJoinBreaks(in *inputs) joined {
 // cohort.
 func (r *result) progReadBreaks(in *inputs) error {
 	cfg, p := r.cfg, r.prog
-	ahead := r.breaksAhead
-	if ahead == nil {
-		ahead = r.progStartBreaks(in)
+	pending := r.breaksAhead
+	if pending == nil {
+		pending = r.progStartBreaks(in)
 	}
-	if ahead == nil {
+	if pending == nil {
 		return nil
 	}
-	j := ahead.wait()
+	j := pending.wait()
 	r.problems = append(r.problems, j.probs...)
 	if j.err != nil {
 		return j.err
@@ -159,20 +164,14 @@ func (r *result) progBreakPipes() []scoring.BreakPipe {
 	return out
 }
 
-// pendingFacilities is the critical-facility layer being read, and each
-// main's nearest facility found, on another goroutine
-// (progStartFacilities): wait gives the result.
-type pendingFacilities struct {
-	done  chan struct{} // closed once the rest is set
+// nearest is the critical-facility layer read and each main's nearest
+// facility: the facilities, one entry per input pipe, the problems found
+// reading the layer and the error that stopped it.
+type nearest struct {
 	fs    []gis.Facility
 	near  []gis.FacilityNear
 	probs []gis.Problem
 	err   error
-}
-
-func (pf *pendingFacilities) wait() *pendingFacilities {
-	<-pf.done
-	return pf
 }
 
 // progStartFacilities reads the facility layer and finds each main's
@@ -180,51 +179,46 @@ func (pf *pendingFacilities) wait() *pendingFacilities {
 // breaks (1M demo town: 0.24 s that the program stage waited for); nil
 // when there is no facility layer. It must start after gis.Snap, as
 // progStartBreaks must.
-func (r *result) progStartFacilities(in *inputs) *pendingFacilities {
+func (r *result) progStartFacilities(in *inputs) *ahead[nearest] {
 	cfg := r.cfg
 	if cfg.Facilities.Path == "" && in.facilities == nil {
 		return nil
 	}
-	pf := &pendingFacilities{done: make(chan struct{})}
-	go func() {
-		defer close(pf.done)
-		pf.fs, pf.near, pf.probs, pf.err = r.progNearFacilities(in)
-	}()
-	return pf
+	return startAhead(func() nearest { return r.progNearFacilities(in) })
 }
 
 // progNearFacilities reads the critical-facility layer and finds the
 // nearest facility to each main, out to the farthest edge of the
 // facility factor (beyond it every main scores 1).
-func (r *result) progNearFacilities(in *inputs) ([]gis.Facility, []gis.FacilityNear, []gis.Problem, error) {
+func (r *result) progNearFacilities(in *inputs) nearest {
 	cfg := r.cfg
 	c, err := openLayer(in, layerConfig{"facilities", cfg.Facilities.LayerFile}, in.facilities)
 	if err != nil {
-		return nil, nil, nil, err
+		return nearest{err: err}
 	}
 	fs, probs, err := gis.FacilitiesFromLayer(c, gis.FacilitySchema{ID: cfg.Facilities.Fields.ID, Kind: cfg.Facilities.Fields.Kind})
 	if err != nil {
-		return nil, nil, probs, err
+		return nearest{probs: probs, err: err}
 	}
 	riskCfg, err := cfg.progRisk() // validated with the config; progRun reports its error first
 	if err != nil {
-		return nil, nil, probs, err
+		return nearest{probs: probs, err: err}
 	}
 	within := slices.Max(riskCfg.Facility.Scale.Edges[:])
-	return fs, gis.NearestFacilities(r.pipes, fs, hydraulics.Length(within)), probs, nil
+	return nearest{fs: fs, near: gis.NearestFacilities(r.pipes, fs, hydraulics.Length(within)), probs: probs}
 }
 
 // progReadFacilities takes the facilities read and each main's nearest
 // (progStartFacilities, or here when nothing started it).
 func (r *result) progReadFacilities(in *inputs) error {
-	ahead := r.facilitiesAhead
-	if ahead == nil {
-		ahead = r.progStartFacilities(in)
+	pending := r.facilitiesAhead
+	if pending == nil {
+		pending = r.progStartFacilities(in)
 	}
-	if ahead == nil {
+	if pending == nil {
 		return nil
 	}
-	pf := ahead.wait()
+	pf := pending.wait()
 	r.problems = append(r.problems, pf.probs...)
 	if pf.err != nil {
 		return pf.err

@@ -139,9 +139,9 @@ type result struct {
 	cure        *hydraulics.UpsizeResult
 	cureHydrant []int
 
-	prog            *progResult        // the replacement program (program.go)
-	breaksAhead     *pendingBreaks     // the break layer read and joined while the network is solved (progStartBreaks)
-	facilitiesAhead *pendingFacilities // the facility layer read, each main's nearest found, meanwhile (progStartFacilities)
+	prog            *progResult     // the replacement program (program.go)
+	breaksAhead     *ahead[joined]  // the break layer read and joined while the network is solved (progStartBreaks)
+	facilitiesAhead *ahead[nearest] // the facility layer read, each main's nearest found, meanwhile (progStartFacilities)
 
 	progress *progress // the stages on stderr; nil reports nothing
 	in       *inputs   // what was read, for the manifest
@@ -270,7 +270,7 @@ func analyse(in *inputs) (*result, error) {
 func readLayers(in *inputs, r *result) error {
 	cfg := in.cfg
 	mem := []*geojson.FeatureCollection{in.pipes, in.sources, in.demands, in.elevations}
-	read := []func(*gis.Collection) ([]gis.Problem, error){nil, r.readSources, r.readDemands, r.readElevations} // pipes: readPipeLayer
+	read := []func(*gis.Collection) ([]gis.Problem, error){1: r.readSources, 2: r.readDemands, 3: r.readElevations} // 0, the pipes: readPipeLayer
 	layers := cfg.layers()
 	// The point layers are read on another goroutine while the pipes are
 	// (their readers touch only their own fields of r, and not r.problems,
