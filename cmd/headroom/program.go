@@ -204,8 +204,13 @@ func (c *Config) progRisk() (scoring.RiskConfig, error) {
 		}
 	}
 	for _, table := range []struct {
+		key     string
 		in, out map[string]float64
-	}{{k.MaterialScores, rc.Material.Scores}, {k.RoadScores, rc.Road.Scores}, {k.ExpectedLife, rc.ExpectedLife}} {
+	}{{"risk.material_scores", k.MaterialScores, rc.Material.Scores}, {"risk.road_scores", k.RoadScores, rc.Road.Scores},
+		{"risk.expected_life_years", k.ExpectedLife, rc.ExpectedLife}} {
+		if err := caseTwins(table.key, table.in); err != nil {
+			return rc, err
+		}
 		for key, v := range table.in {
 			for old := range table.out {
 				if strings.EqualFold(old, key) {
@@ -219,6 +224,23 @@ func (c *Config) progRisk() (scoring.RiskConfig, error) {
 		return rc, fmt.Errorf("[risk]: %w", err)
 	}
 	return rc, nil
+}
+
+// caseTwins returns an error naming table key when two of m's class names
+// differ only in case: classes are matched without regard to case (scoring
+// ClassFactor, AssessRisk, CostTable), so which of the two a main would get
+// would otherwise depend on map order.
+func caseTwins(key string, m map[string]float64) error {
+	names := sortedKeys(m) // a few classes: every pair is compared
+	for i, a := range names {
+		for _, b := range names[i+1:] {
+			if strings.EqualFold(a, b) {
+				return fmt.Errorf("[%s]: classes %q and %q differ only in case, and classes are matched without regard to case; keep one",
+					key, a, b)
+			}
+		}
+	}
+	return nil
 }
 
 // sortedKeys returns m's keys in order.
@@ -252,6 +274,9 @@ func (c *Config) progCosts() (scoring.CostTable, error) {
 		}
 	}
 	if k.SurfaceFactor != nil {
+		if err := caseTwins("costs.surface_factor", k.SurfaceFactor); err != nil {
+			return t, err
+		}
 		t.SurfaceFactor = k.SurfaceFactor
 	}
 	t.PerProject = orDefaultPtr(k.PerProject, t.PerProject)

@@ -331,3 +331,28 @@ func TestBreaksReadAheadAsInPlace(t *testing.T) {
 		t.Errorf("%d facilities read ahead, %d in place; the facilities or the mains' nearest differ", len(a.facilities), len(b.facilities))
 	}
 }
+
+// The risk and cost tables match classes in any case (scoring.ClassFactor,
+// AssessRisk, CostTable), as the needed-flow table does: two spellings of one
+// class would leave a main's score, life or cost to map order, so the config
+// is refused, naming the table and both spellings.
+func TestClassTablesDifferingInCase(t *testing.T) {
+	cases := []struct{ name, extra, want string }{
+		{"material scores differing in case", "[risk.material_scores]\nPVC = 2\npvc = 3\n", `[risk.material_scores]: classes "PVC" and "pvc" differ only in case`},
+		{"road scores differing in case", "[risk.road_scores]\nArterial = 5\nARTERIAL = 4\n", `[risk.road_scores]: classes "ARTERIAL" and "Arterial"`},
+		{"expected lives differing in case", "[risk.expected_life_years]\n\"Cast Iron\" = 90\n\"cast iron\" = 100\n", "[risk.expected_life_years]: classes"},
+		{"surface factors differing in case", "[costs.surface_factor]\nConcrete = 1.3\nconcrete = 1.2\n", "[costs.surface_factor]: classes"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := decodeConfig(badConfig+c.extra, "test.toml")
+			if err == nil || !strings.Contains(err.Error(), c.want) || !strings.Contains(err.Error(), "test.toml") {
+				t.Errorf("error %v, want one naming test.toml and containing %q", err, c.want)
+			}
+		})
+	}
+	// One spelling of each is taken.
+	if _, err := decodeConfig(badConfig+"[risk.material_scores]\nPVC = 2\n[costs.surface_factor]\nconcrete = 1.2\n", "test.toml"); err != nil {
+		t.Errorf("one spelling per class refused: %v", err)
+	}
+}
